@@ -1,0 +1,5 @@
+import sys
+
+from reportgen.cli import main
+
+sys.exit(main())

@@ -1,0 +1,158 @@
+"""Command line: the only place that prints to the user and chooses exit codes.
+
+Exit status: 0 done; 1 ``verify`` found a difference; 2 input or output problem the user can fix;
+3 an internal failure (a bug or a broken installation: please report it).
+"""
+
+from __future__ import annotations
+
+import argparse
+import os
+import sys
+from collections.abc import Sequence
+from pathlib import Path
+from typing import TextIO
+
+from reportgen import __version__
+from reportgen.errors import BuildError, InputError, OutputError, Problem
+from reportgen.output import verify
+from reportgen.settings import load_settings
+
+EXIT_OK, EXIT_DIFFERS, EXIT_INPUT, EXIT_INTERNAL = 0, 1, 2, 3
+
+
+class ProgressBar:
+    """``stage  [#####.....]  12/120`` on stderr; redrawn in place on a terminal."""
+
+    def __init__(self, stream: TextIO, quiet: bool) -> None:
+        self.stream = stream
+        self.quiet = quiet
+        self.tty = stream.isatty()
+        self._last: tuple[str, int] | None = None
+
+    def __call__(self, stage: str, done: int, total: int) -> None:
+        if self.quiet or total <= 0:
+            return
+        tenth = done * 10 // total
+        if not self.tty and self._last == (stage, tenth) and done != total:
+            return
+        self._last = (stage, tenth)
+        width = 30
+        filled = done * width // total
+        bar = "#" * filled + "." * (width - filled)
+        end = "\n" if done == total or not self.tty else ""
+        self.stream.write(f"\r{stage:<14} [{bar}] {done}/{total}{end}")
+        self.stream.flush()
+
+
+def _print_problems(problems: Sequence[Problem], stream: TextIO) -> None:
+    errors = [p for p in problems if p.severity == "error"]
+    warnings = [p for p in problems if p.severity == "warning"]
+    if errors:
+        stream.write(f"{len(errors)} problem(s) must be fixed before the round can be scored:\n")
+        for p in errors:
+            stream.write(f"  error: {p}\n")
+    for p in warnings:
+        stream.write(f"  warning: {p}\n")
+
+
+def _parser() -> argparse.ArgumentParser:
+    parser = argparse.ArgumentParser(
+        prog="reportgen",
+        description="Score a proficiency-testing round and issue its reports.",
+    )
+    parser.add_argument("--version", action="version", version=f"reportgen {__version__}")
+    sub = parser.add_subparsers(dest="command", required=True, metavar="COMMAND")
+
+    def common(p: argparse.ArgumentParser, out: bool = True) -> None:
+        if out:
+            p.add_argument("-o", "--out", type=Path, required=True, help="output folder")
+        p.add_argument("--config", type=Path, help="provider settings file (TOML)")
+        p.add_argument("--quiet", action="store_true", help="no progress bar")
+        p.add_argument("--jobs", type=int, default=1, help="worker processes (default 1)")
+
+    p = sub.add_parser("check", help="read and validate a round folder; write nothing")
+    p.add_argument("round", type=Path)
+    common(p, out=False)
+    p = sub.add_parser("score", help="write results.json, results.xlsx and manifest.json")
+    p.add_argument("round", type=Path)
+    common(p)
+    p = sub.add_parser("issue", help="score, then render certificates and the group appendix")
+    p.add_argument("round", type=Path)
+    common(p)
+    p = sub.add_parser("verify", help="check an output folder against its manifest")
+    p.add_argument("out", type=Path)
+    p = sub.add_parser("demo", help="run the newest sample round end to end")
+    p.add_argument("-o", "--out", type=Path, default=Path("demo-output"))
+    common(p, out=False)
+    return parser
+
+
+def _run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
+    from reportgen import pipeline  # imported here so --help stays fast
+
+    if args.command == "verify":
+        result = verify(args.out)
+        for label, names in (("altered", result.altered), ("missing", result.missing),
+                             ("added", result.added)):
+            for name in names:
+                out.write(f"{label}: {name}\n")
+        if result.intact:
+            out.write(f"intact: all {result.checked} files match {args.out}/manifest.json\n")
+            return EXIT_OK
+        return EXIT_DIFFERS
+
+    settings = load_settings(args.config)
+    progress = ProgressBar(err, args.quiet)
+    if args.command == "check":
+        rnd = pipeline.load(args.round)
+        _print_problems(rnd.warnings, err)
+        out.write(f"{args.round}: no problems found ({rnd.n_participants} participants, "
+                  f"{rnd.n_items} items)\n")
+        return EXIT_OK
+    if args.jobs < 1:
+        err.write("--jobs must be at least 1\n")
+        return EXIT_INPUT
+    if args.command == "score":
+        summary = pipeline.score(args.round, args.out, settings, progress)
+    elif args.command == "issue":
+        summary = pipeline.issue(args.round, args.out, settings, jobs=args.jobs,
+                                 progress=progress)
+    else:  # demo
+        summary = pipeline.issue(pipeline.newest_sample_round(), args.out, settings,
+                                 jobs=args.jobs, progress=progress)
+    _print_problems(summary.warnings, err)
+    out.write(f"wrote {len(summary.files)} files for {summary.n_participants} participants "
+              f"to {summary.out}\n")
+    return EXIT_OK
+
+
+def main(argv: Sequence[str] | None = None) -> int:
+    args = _parser().parse_args(argv)
+    out, err = sys.stdout, sys.stderr
+    try:
+        return _run(args, out, err)
+    except InputError as exc:
+        _print_problems(exc.problems, err)
+        err.write("Nothing was written.\n")
+        return EXIT_INPUT
+    except OutputError as exc:
+        err.write(f"error: {exc}\n")
+        return EXIT_INPUT
+    except BuildError as exc:
+        err.write(f"internal error: {exc}\nPlease report this with the round folder.\n")
+        return EXIT_INTERNAL
+    except KeyboardInterrupt:
+        err.write("interrupted; the output folder was left as it was\n")
+        return 130
+    except Exception as exc:  # a bug of ours: a short message, the traceback only on request
+        if os.environ.get("REPORTGEN_DEBUG"):
+            raise
+        err.write(f"internal error ({type(exc).__name__}): {exc}\n"
+                  "Nothing was written. Run again with REPORTGEN_DEBUG=1 for the details and "
+                  "please report it.\n")
+        return EXIT_INTERNAL
+
+
+if __name__ == "__main__":  # pragma: no cover
+    sys.exit(main())

@@ -1,0 +1,132 @@
+"""Judge every participant against the criteria announced before the round (round.toml).
+
+A ``bound`` rule is met or not met; a ``z`` rule classes the participant's robust z-score in the
+group (ISO 13528 Algorithm A; |z| <= 2 satisfactory, 2 < |z| < 3 questionable, |z| >= 3
+unsatisfactory) and only a deviation on the ``worse`` side counts against the participant.
+A rule whose metric is not estimable for a participant is "not assessable", never silently met.
+"""
+
+from __future__ import annotations
+
+from collections import Counter
+from collections.abc import Mapping, Sequence
+from dataclasses import dataclass
+
+import numpy as np
+import numpy.typing as npt
+
+from reportgen.metrics.robust import algorithm_a, classify_z, z_scores
+from reportgen.results import CriterionOutcome, Outcome, Overall
+from reportgen.rounds.schema import Criterion
+
+Array = npt.NDArray[np.float64]
+PASSING: frozenset[str] = frozenset({"met", "satisfactory", "questionable"})
+OVERALL_TEXT = {
+    "all criteria met": "All criteria announced before the round were met.",
+    "not all criteria met": "Not every criterion announced before the round was met; see the "
+    "table of criteria for which and by how much.",
+    "no criteria announced": "No performance criteria were announced for this round; the "
+    "results are given for information.",
+}
+
+WARNING_TEXT = (" One result is a warning signal (questionable: 2 < |z| < 3), which ISO 13528 "
+                "treats as a prompt to review rather than a failure.")
+
+
+@dataclass(frozen=True)
+class Verdicts:
+    outcomes: tuple[tuple[CriterionOutcome, ...], ...]  # per participant, per criterion
+    overall: tuple[Overall, ...]
+    overall_text: tuple[str, ...]
+    counts: Mapping[str, Mapping[str, int]]
+    overall_counts: Mapping[str, int]
+    robust: Mapping[str, tuple[float, float]]
+
+
+def _fmt(x: float) -> str:
+    return f"{x:.4g}"
+
+
+def _bound(rule: Criterion, values: Array) -> list[CriterionOutcome]:
+    out = []
+    for v in values:
+        if not np.isfinite(v):
+            out.append(CriterionOutcome(rule.id, rule.label, rule.metric, None, "not assessable",
+                                        f"{rule.metric} could not be estimated"))
+            continue
+        ok_low = rule.at_least is None or v >= rule.at_least
+        ok_high = rule.at_most is None or v <= rule.at_most
+        needs = " and ".join(
+            part for part in (
+                f"at least {_fmt(rule.at_least)}" if rule.at_least is not None else "",
+                f"at most {_fmt(rule.at_most)}" if rule.at_most is not None else "",
+            ) if part
+        )
+        outcome: Outcome = "met" if ok_low and ok_high else "not met"
+        out.append(CriterionOutcome(rule.id, rule.label, rule.metric, float(v), outcome,
+                                    f"{rule.metric} = {_fmt(float(v))}; required {needs}"))
+    return out
+
+
+def _z(rule: Criterion, values: Array) -> tuple[list[CriterionOutcome], tuple[float, float]]:
+    finite = values[np.isfinite(values)]
+    est = algorithm_a(finite) if finite.size >= 3 else None
+    if est is None or not est.sd > 0:
+        why = ("fewer than 3 estimable results in the group" if est is None
+               else "the group's robust standard deviation is 0")
+        return ([CriterionOutcome(rule.id, rule.label, rule.metric,
+                                  float(v) if np.isfinite(v) else None, "not assessable", why)
+                 for v in values], (float("nan"), float("nan")))
+    z = z_scores(values, est.mean, est.sd)
+    classes = classify_z(z)
+    out = []
+    for v, zi, cls in zip(values, z, classes, strict=True):
+        if not np.isfinite(zi):
+            out.append(CriterionOutcome(rule.id, rule.label, rule.metric, None, "not assessable",
+                                        f"{rule.metric} could not be estimated"))
+            continue
+        better_side = zi > 0 if rule.worse == "low" else zi < 0
+        outcome: Outcome = "satisfactory" if better_side else str(cls)  # type: ignore[assignment]
+        out.append(CriterionOutcome(
+            rule.id, rule.label, rule.metric, float(v), outcome,
+            f"z = {zi:+.2f} (x* = {_fmt(float(est.mean))}, s* = {_fmt(float(est.sd))}, "
+            "ISO 13528 Algorithm A)",
+        ))
+    return out, (float(est.mean), float(est.sd))
+
+
+def judge(rules: Sequence[Criterion], values: Mapping[str, Array]) -> Verdicts:
+    """Every participant's outcome on every rule, the overall statement, and the group counts."""
+    n = len(next(iter(values.values())))
+    per_rule: list[list[CriterionOutcome]] = []
+    robust: dict[str, tuple[float, float]] = {}
+    for rule in rules:
+        vals = np.asarray(values[rule.metric], dtype=float)
+        if rule.kind == "z":
+            outcomes, robust[rule.metric] = _z(rule, vals)
+        else:
+            outcomes = _bound(rule, vals)
+        per_rule.append(outcomes)
+    by_participant = tuple(tuple(r[p] for r in per_rule) for p in range(n))
+    overall: tuple[Overall, ...] = tuple(
+        "no criteria announced" if not rules
+        else "all criteria met" if all(o.outcome in PASSING for o in outs)
+        else "not all criteria met"
+        for outs in by_participant
+    )
+    counts: dict[str, dict[str, int]] = {
+        rule.id: dict(sorted(Counter[str](o.outcome for o in outcomes).items()))
+        for rule, outcomes in zip(rules, per_rule, strict=True)
+    }
+    return Verdicts(
+        outcomes=by_participant,
+        overall=overall,
+        overall_text=tuple(
+            OVERALL_TEXT[o] + (WARNING_TEXT if any(x.outcome == "questionable" for x in outs)
+                               else "")
+            for o, outs in zip(overall, by_participant, strict=True)
+        ),
+        counts=counts,
+        overall_counts=dict(sorted(Counter(overall).items())),
+        robust=robust,
+    )

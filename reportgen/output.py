@@ -1,0 +1,200 @@
+"""Writing OUT safely, and checking it later.
+
+* :class:`Staging` writes every output into a hidden sibling folder and moves it into place only
+  when the run is complete; a lock stops two runs writing the same OUT at once. A run killed at
+  any point leaves either the previous complete OUT or none, never a mix.
+* :func:`manifest` records the SHA-256 of every input, the settings and every output, with the
+  software versions; :func:`verify` recomputes them and names what changed.
+"""
+
+from __future__ import annotations
+
+import fcntl
+import hashlib
+import json
+import os
+import platform
+import shutil
+from collections.abc import Iterator, Mapping, Sequence
+from dataclasses import dataclass
+from importlib import metadata
+from pathlib import Path
+from types import TracebackType
+
+from reportgen.errors import OutputError
+
+MANIFEST = "manifest.json"
+MANIFEST_FORMAT = "reportgen-manifest/1"
+_PACKAGES = ("reportgen", "numpy", "scipy", "pandas", "pydantic", "openpyxl", "python-calamine",
+             "defusedxml", "jinja2", "weasyprint", "altair", "vl-convert-python")
+
+
+def sha256_bytes(data: bytes) -> str:
+    return hashlib.sha256(data).hexdigest()
+
+
+def sha256_file(path: Path) -> str:
+    digest = hashlib.sha256()
+    with path.open("rb") as fh:
+        for chunk in iter(lambda: fh.read(1 << 20), b""):
+            digest.update(chunk)
+    return digest.hexdigest()
+
+
+def write_atomic(path: Path, data: bytes) -> None:
+    """Write ``data`` under a temporary name in the same folder, flush it, then rename."""
+    path.parent.mkdir(parents=True, exist_ok=True)
+    tmp = path.with_name(f".{path.name}.part")
+    with tmp.open("wb") as fh:
+        fh.write(data)
+        fh.flush()
+        os.fsync(fh.fileno())
+    os.replace(tmp, path)
+
+
+def software_versions() -> dict[str, str]:
+    versions = {"python": platform.python_version()}
+    for name in _PACKAGES:
+        try:
+            versions[name] = metadata.version(name)
+        except metadata.PackageNotFoundError:
+            versions[name] = "not installed"
+    return versions
+
+
+class Staging:
+    """Context manager: a locked staging folder that replaces OUT on success.
+
+    ``with Staging(out) as stage: stage.write("results.json", data)``; on an exception the staging
+    folder is removed and OUT is left as it was.
+    """
+
+    def __init__(self, out: Path) -> None:
+        self.out = out.resolve()
+        self.parent = self.out.parent
+        self.stage = self.parent / f".{self.out.name}.staging"
+        self.old = self.parent / f".{self.out.name}.previous"
+        self.lock_path = self.parent / f".{self.out.name}.lock"
+        self.written: dict[str, str] = {}
+        self._lock_fh: int | None = None
+
+    def __enter__(self) -> Staging:
+        if self.out.exists() and not self.out.is_dir():
+            raise OutputError(f"{self.out} exists and is not a folder")
+        try:
+            self.parent.mkdir(parents=True, exist_ok=True)
+            fd = os.open(self.lock_path, os.O_RDWR | os.O_CREAT, 0o644)
+        except OSError as exc:
+            raise OutputError(f"cannot write in {self.parent}: {exc.strerror}") from exc
+        try:
+            fcntl.flock(fd, fcntl.LOCK_EX | fcntl.LOCK_NB)
+        except BlockingIOError as exc:
+            os.close(fd)
+            raise OutputError(
+                f"another reportgen run is writing {self.out} right now; wait for it to finish"
+            ) from exc
+        self._lock_fh = fd
+        self._recover()
+        shutil.rmtree(self.stage, ignore_errors=True)
+        self.stage.mkdir()
+        return self
+
+    def _recover(self) -> None:
+        """Finish or undo what a killed run left (we hold the lock, so nobody else is writing)."""
+        if self.old.exists():
+            if self.out.exists():
+                shutil.rmtree(self.old)
+            else:  # killed between the two renames: the previous output is the complete one
+                os.replace(self.old, self.out)
+
+    def write(self, name: str, data: bytes) -> None:
+        write_atomic(self.stage / name, data)
+        self.written[name] = sha256_bytes(data)
+
+    def __exit__(self, exc_type: type[BaseException] | None, exc: BaseException | None,
+                 tb: TracebackType | None) -> None:
+        try:
+            if exc_type is None:
+                self._commit()
+            else:
+                shutil.rmtree(self.stage, ignore_errors=True)
+        finally:
+            if self._lock_fh is not None:
+                fcntl.flock(self._lock_fh, fcntl.LOCK_UN)
+                os.close(self._lock_fh)
+                self._lock_fh = None
+
+    def _commit(self) -> None:
+        _fsync_dir(self.stage)
+        if self.out.exists():
+            os.replace(self.out, self.old)
+        os.replace(self.stage, self.out)
+        _fsync_dir(self.parent)
+        shutil.rmtree(self.old, ignore_errors=True)
+
+
+def _fsync_dir(path: Path) -> None:
+    fd = os.open(path, os.O_RDONLY)
+    try:
+        os.fsync(fd)
+    finally:
+        os.close(fd)
+
+
+@dataclass(frozen=True)
+class ManifestInput:
+    name: str
+    sha256: str
+
+
+def manifest(*, round_id: str, inputs: Sequence[ManifestInput], settings_source: str,
+             settings_sha256: str, outputs: Mapping[str, str],
+             file_names: Mapping[str, str] | None = None) -> bytes:
+    """manifest.json as bytes: sorted keys and lists, so reruns give the same bytes."""
+    doc = {
+        "format": MANIFEST_FORMAT,
+        "round": round_id,
+        "software": software_versions(),
+        "settings": {"source": settings_source, "sha256": settings_sha256},
+        "inputs": [{"name": i.name, "sha256": i.sha256} for i in sorted(inputs,
+                                                                        key=lambda i: i.name)],
+        "outputs": [{"path": k, "sha256": v} for k, v in sorted(outputs.items())],
+        "participant_files": dict(sorted((file_names or {}).items())),
+    }
+    return (json.dumps(doc, indent=2, ensure_ascii=False) + "\n").encode("utf-8")
+
+
+@dataclass(frozen=True)
+class Verification:
+    altered: tuple[str, ...]
+    missing: tuple[str, ...]
+    added: tuple[str, ...]
+    checked: int
+
+    @property
+    def intact(self) -> bool:
+        return not (self.altered or self.missing or self.added)
+
+
+def _files(out: Path) -> Iterator[str]:
+    for path in sorted(out.rglob("*")):
+        if path.is_file():
+            yield path.relative_to(out).as_posix()
+
+
+def verify(out: Path) -> Verification:
+    """Recompute every output's SHA-256 against OUT/manifest.json."""
+    path = out / MANIFEST
+    try:
+        doc = json.loads(path.read_text(encoding="utf-8"))
+        recorded = {o["path"]: o["sha256"] for o in doc["outputs"]}
+    except FileNotFoundError as exc:
+        raise OutputError(f"{out} has no {MANIFEST}: it is not a reportgen output folder") from exc
+    except (ValueError, KeyError, TypeError) as exc:
+        raise OutputError(f"{path} is not a readable reportgen manifest") from exc
+    present = set(_files(out)) - {MANIFEST}
+    altered = tuple(sorted(n for n in recorded if n in present
+                           and sha256_file(out / n) != recorded[n]))
+    missing = tuple(sorted(n for n in recorded if n not in present))
+    added = tuple(sorted(present - set(recorded)))
+    return Verification(altered, missing, added, len(recorded))

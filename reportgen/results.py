@@ -1,0 +1,119 @@
+"""Typed, frozen results of scoring a round: what rendering and writing consume.
+
+Every per-participant measure is a :class:`Metric` under the name DESIGN §3 gives it, so the JSON,
+the workbook, the criteria and the templates all look values up by the same names.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Mapping
+from dataclasses import dataclass
+from typing import Literal
+
+from reportgen.rounds.model import Round
+
+
+@dataclass(frozen=True)
+class Metric:
+    """A value with its 95 % interval, or ``value=None`` and a ``note`` saying why not estimable.
+
+    ``note`` may also carry a caution on an estimable value (e.g. "few errors: unstable").
+    """
+
+    value: float | None
+    low: float | None = None
+    high: float | None = None
+    note: str | None = None
+
+    @property
+    def estimable(self) -> bool:
+        return self.value is not None
+
+
+Outcome = Literal[
+    "met", "not met", "not assessable", "satisfactory", "questionable", "unsatisfactory"
+]
+
+
+@dataclass(frozen=True)
+class CriterionOutcome:
+    """How one participant fared against one pre-announced criterion."""
+
+    id: str
+    label: str
+    metric: str
+    value: float | None
+    outcome: Outcome
+    detail: str
+
+
+@dataclass(frozen=True)
+class LevelRow:
+    """One confidence level of one participant (conclusive answers only, plus inconclusives)."""
+
+    level: float
+    correct: int
+    wrong: int
+    inconclusive: int
+    probability: float | None  # the level read as a probability of being right, when calibrated
+
+
+Overall = Literal["all criteria met", "not all criteria met", "no criteria announced"]
+
+
+@dataclass(frozen=True)
+class ParticipantResult:
+    code: str
+    row: int  # index into Round.participants and the response matrices
+    counts: Mapping[str, int]
+    metrics: Mapping[str, Metric]
+    levels: tuple[LevelRow, ...]
+    criteria: tuple[CriterionOutcome, ...]
+    overall: Overall
+    overall_text: str
+
+
+@dataclass(frozen=True)
+class ItemResult:
+    item: str
+    truth: str
+    answered: int
+    correct: int
+    wrong: int
+    inconclusive: int
+    difficulty: float | None  # share of answering participants who were correct
+    discrimination: float | None  # corrected item-total (point-biserial) correlation
+    inconclusive_rate: float | None
+    flagged: bool  # many strong performers answered against the key: review before release
+    flag_reason: str | None
+
+
+@dataclass(frozen=True)
+class Distribution:
+    n: int
+    mean: float | None
+    sd: float | None
+    minimum: float | None
+    q1: float | None
+    median: float | None
+    q3: float | None
+    maximum: float | None
+
+
+@dataclass(frozen=True)
+class GroupResult:
+    n_participants: int
+    distributions: Mapping[str, Distribution]
+    criteria_counts: Mapping[str, Mapping[str, int]]  # criterion id -> outcome -> count
+    overall_counts: Mapping[str, int]
+    robust: Mapping[str, tuple[float, float]]  # metric -> (x*, s*) of Algorithm A, for z criteria
+    error_types: Mapping[str, int]  # false_positives, false_negatives, inconclusive_same, ...
+    levels: tuple[LevelRow, ...]  # pooled over the group
+
+
+@dataclass(frozen=True, eq=False)
+class RoundResults:
+    round: Round
+    participants: tuple[ParticipantResult, ...]
+    items: tuple[ItemResult, ...]
+    group: GroupResult

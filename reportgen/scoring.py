@@ -1,0 +1,253 @@
+"""Score a validated round: every measure of DESIGN §3 for every participant, plus the group.
+
+Steps: (1) outcome masks over the participants x items matrices; (2) count tables per participant
+(by truth class, by confidence level); (3) the metrics, computed on whole arrays by
+:mod:`reportgen.metrics`; (4) pre-announced criteria; (5) item analysis and group summaries.
+No Python loop runs over items; loops over participants only assemble result objects.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Mapping, Sequence
+
+import numpy as np
+import numpy.typing as npt
+
+from reportgen.columns import Column, Masks, Tables, counts, masks, tables
+from reportgen.criteria import judge
+from reportgen.insight import insight_columns
+from reportgen.metrics.calibration import calibration
+from reportgen.metrics.insight import conf_gap, gamma_correct_confidence, type2_auroc
+from reportgen.metrics.items import item_analysis
+from reportgen.metrics.proportions import proportion_ci
+from reportgen.metrics.sdt import rating_auc, sdt_loglinear
+from reportgen.metrics.uncertainty import hanley_mcneil_se, mean_difference
+from reportgen.names import KNOWN_METRICS, METRIC_NAMES
+from reportgen.results import (
+    Distribution,
+    GroupResult,
+    ItemResult,
+    LevelRow,
+    ParticipantResult,
+    RoundResults,
+)
+from reportgen.rounds.model import Round
+from reportgen.settings import Settings
+
+__all__ = ["KNOWN_METRICS", "METRIC_NAMES", "score_round"]
+
+Array = npt.NDArray[np.float64]
+
+
+
+def _rate(k: npt.ArrayLike, n: npt.ArrayLike, method: str, reason: str) -> Column:
+    ci = proportion_ci(k, n, method=method)  # type: ignore[arg-type]
+    return Column(ci.estimate, ci.low, ci.high, reason=reason)
+
+
+def rate_columns(c: Mapping[str, npt.NDArray[np.int64]], method: str) -> dict[str, Column]:
+    conclusive = c["answered"] - c["inconclusive"]
+    return {
+        "accuracy": _rate(c["correct"], c["items"], method, "no items"),
+        "error_rate": _rate(c["errors"], c["items"], method, "no items"),
+        "decisive_accuracy": _rate(c["correct"], conclusive, method, "no conclusive answers"),
+        "false_positive_rate": _rate(c["false_positives"], c["n_different"], method,
+                                     "no different-source items"),
+        "false_negative_rate": _rate(c["false_negatives"], c["n_same"], method,
+                                     "no same-source items"),
+        "inconclusive_rate": _rate(c["inconclusive"], c["items"], method, "no items"),
+    }
+
+
+def sdt_columns(c: Mapping[str, npt.NDArray[np.int64]], t: Tables) -> dict[str, Column]:
+    """d′ and c on conclusive answers with the log-linear rule (Hautus 1995), and the ROC area."""
+    hits = c["correct_same"]
+    n_signal = c["correct_same"] + c["false_negatives"]
+    fas = c["false_positives"]
+    n_noise = c["correct_different"] + c["false_positives"]
+    sdt = sdt_loglinear(hits, n_signal, fas, n_noise)
+    reason = "needs conclusive answers on both same- and different-source items"
+    se = sdt.d_prime_se
+    # Rating ROC: conclusive answers by rating, with inconclusives as the middle category.
+    half = t.rating_noise.shape[1] // 2
+    noise = np.concatenate([t.rating_noise[:, :half], t.inconclusive_by_truth[:, :1],
+                            t.rating_noise[:, half:]], axis=1)
+    signal = np.concatenate([t.rating_signal[:, :half], t.inconclusive_by_truth[:, 1:],
+                             t.rating_signal[:, half:]], axis=1)
+    auc = rating_auc(noise, signal)
+    auc_se = hanley_mcneil_se(auc, signal.sum(axis=1), noise.sum(axis=1))
+    return {
+        "hit_rate": Column(sdt.hit_rate, reason=reason),
+        "false_alarm_rate": Column(sdt.fa_rate, reason=reason),
+        "d_prime": Column(sdt.d_prime, sdt.d_prime - 1.96 * se, sdt.d_prime + 1.96 * se,
+                          reason=reason),
+        "criterion": Column(sdt.criterion, reason=reason),
+        "auc": Column(auc, np.clip(auc - 1.96 * auc_se, 0, 1), np.clip(auc + 1.96 * auc_se, 0, 1),
+                      reason="needs answers on both same- and different-source items"),
+    }
+
+
+def confidence_columns(t: Tables, levels: Array) -> dict[str, Column]:
+    """Insight from confidence on conclusive answers (DESIGN §3)."""
+    def mean(counts: Array) -> Array:
+        with np.errstate(divide="ignore", invalid="ignore"):
+            result: Array = (counts * levels).sum(axis=1) / counts.sum(axis=1)
+        return result
+
+    gap = mean_difference(levels, t.correct, t.wrong)
+    n_right, n_wrong = t.correct.sum(axis=1), t.wrong.sum(axis=1)
+    auroc2 = type2_auroc(t.correct, t.wrong)
+    se2 = hanley_mcneil_se(auroc2, n_right, n_wrong)
+    no_err = "no errors"
+    reason = np.where(n_wrong == 0, no_err, np.where(n_right == 0, "no correct answers",
+                                                    "not estimable"))
+    notes = tuple(str(r) for r in reason)
+    used_levels = ((t.correct + t.wrong) > 0).sum(axis=1)
+    g_notes = tuple(
+        "only one confidence level used" if u == 1 and nw > 0 and nr > 0 else str(r)
+        for u, nw, nr, r in zip(used_levels, n_wrong, n_right, reason, strict=True)
+    )
+    return {
+        "mean_confidence_correct": Column(mean(t.correct), reason="no correct answers"),
+        "mean_confidence_wrong": Column(mean(t.wrong), reason=no_err),
+        "mean_confidence_inconclusive": Column(mean(t.inconclusive),
+                                               reason="no inconclusive answers"),
+        "conf_gap": Column(conf_gap(t.correct, t.wrong, levels), gap.low, gap.high,
+                           notes=_only_nan(conf_gap(t.correct, t.wrong, levels), notes)),
+        "type2_auroc": Column(auroc2, np.clip(auroc2 - 1.96 * se2, 0, 1),
+                              np.clip(auroc2 + 1.96 * se2, 0, 1), notes=_only_nan(auroc2, notes)),
+        "gamma": Column(gamma_correct_confidence(t.correct, t.wrong),
+                        notes=_only_nan(gamma_correct_confidence(t.correct, t.wrong), g_notes)),
+    }
+
+
+def _only_nan(values: Array, notes: Sequence[str]) -> tuple[str | None, ...]:
+    return tuple(n if not np.isfinite(v) else None for v, n in zip(values, notes, strict=True))
+
+
+def probabilities(rnd: Round, levels: Array) -> Array | None:
+    """Confidence levels read as probabilities of being right, when calibration applies."""
+    scale = rnd.config.confidence
+    if not scale.calibration_applies:
+        return None
+    if scale.kind == "probability":
+        return levels / 100.0
+    return scale.map_low + (levels - scale.min) / (scale.max - scale.min) * (1 - scale.map_low)
+
+
+def calibration_columns(t: Tables, probs: Array) -> dict[str, Column]:
+    cal = calibration(probs, t.correct, t.wrong)
+    reason = "no conclusive answers"
+    return {
+        "overconfidence": Column(cal.overconfidence, reason=reason),
+        "brier": Column(cal.brier, reason=reason),
+        "brier_reliability": Column(cal.reliability, reason=reason),
+        "brier_resolution": Column(cal.resolution, reason=reason),
+        "brier_uncertainty": Column(cal.uncertainty, reason=reason),
+        "ece": Column(cal.ece, reason=reason),
+    }
+
+
+def _levels(t: Tables, p: int | None, levels: Array, probs: Array | None) -> tuple[LevelRow, ...]:
+    def row(arr: Array, k: int) -> int:
+        return int(arr[:, k].sum() if p is None else arr[p, k])
+
+    return tuple(
+        LevelRow(
+            level=float(levels[k]),
+            correct=row(t.correct, k),
+            wrong=row(t.wrong, k),
+            inconclusive=row(t.inconclusive, k),
+            probability=None if probs is None else float(probs[k]),
+        )
+        for k in range(levels.size)
+    )
+
+
+def _distribution(values: Array) -> Distribution:
+    v = values[np.isfinite(values)]
+    if v.size == 0:
+        return Distribution(0, None, None, None, None, None, None, None)
+    q1, med, q3 = np.percentile(v, [25, 50, 75])
+    return Distribution(
+        n=int(v.size), mean=float(v.mean()), sd=float(v.std(ddof=1)) if v.size > 1 else None,
+        minimum=float(v.min()), q1=float(q1), median=float(med), q3=float(q3),
+        maximum=float(v.max()),
+    )
+
+
+def _items(rnd: Round, m: Masks, accuracy: Array) -> tuple[ItemResult, ...]:
+    """Item analysis; 'strong' performers are the top quarter of the group by accuracy."""
+    strong = accuracy >= np.percentile(accuracy, 75) if accuracy.size else accuracy.astype(bool)
+    ia = item_analysis(m.correct, m.wrong, m.abstain, strong)
+    classes = rnd.config.classes
+    out = []
+    for i, item in enumerate(rnd.items):
+        flagged = bool(ia.flagged[i])
+        out.append(ItemResult(
+            item=item,
+            truth=classes.positive if rnd.truth[i] == 1 else classes.negative,
+            answered=int(ia.answered[i]),
+            correct=int(ia.n_correct[i]),
+            wrong=int(ia.n_wrong[i]),
+            inconclusive=int(ia.n_inconclusive[i]),
+            difficulty=_opt(ia.difficulty[i]),
+            discrimination=_opt(ia.discrimination[i]),
+            inconclusive_rate=_opt(ia.inconclusive_rate[i]),
+            flagged=flagged,
+            flag_reason=(f"{ia.strong_against[i]:.0%} of the strongest quarter answered against "
+                         "the key" if flagged else None),
+        ))
+    return tuple(out)
+
+
+def _opt(x: float) -> float | None:
+    return float(x) if np.isfinite(x) else None
+
+
+def score_round(rnd: Round, settings: Settings) -> RoundResults:
+    """Every measure of DESIGN §3 for every participant of ``rnd``, the items and the group."""
+    cfg = rnd.config
+    m = masks(rnd)
+    t = tables(m)
+    c = counts(m, cfg.scoring.inconclusive_is_error)
+    columns: dict[str, Column] = {}
+    columns.update(rate_columns(c, cfg.scoring.interval))
+    columns.update(sdt_columns(c, t))
+    columns.update(confidence_columns(t, m.levels))
+    columns.update(insight_columns(t, m.levels, c, cfg.scoring, settings.report.bootstrap,
+                                   rnd.participants))
+    probs = probabilities(rnd, m.levels)
+    if probs is not None:
+        columns.update(calibration_columns(t, probs))
+    columns = {name: columns[name] for name in METRIC_NAMES if name in columns}
+
+    values = {name: col.value for name, col in columns.items()}
+    values.update({name: arr.astype(float) for name, arr in c.items()})
+    verdicts = judge(cfg.criteria, values)
+
+    participants = tuple(
+        ParticipantResult(
+            code=code,
+            row=p,
+            counts={name: int(arr[p]) for name, arr in c.items()},
+            metrics={name: col.metric(p) for name, col in columns.items()},
+            levels=_levels(t, p, m.levels, probs),
+            criteria=verdicts.outcomes[p],
+            overall=verdicts.overall[p],
+            overall_text=verdicts.overall_text[p],
+        )
+        for p, code in enumerate(rnd.participants)
+    )
+    group = GroupResult(
+        n_participants=rnd.n_participants,
+        distributions={name: _distribution(col.value) for name, col in columns.items()},
+        criteria_counts=verdicts.counts,
+        overall_counts=verdicts.overall_counts,
+        robust=verdicts.robust,
+        error_types={name: int(c[name].sum()) for name in (
+            "false_positives", "false_negatives", "inconclusive_same", "inconclusive_different",
+            "correct_same", "correct_different", "n_same", "n_different", "missing")},
+        levels=_levels(t, None, m.levels, probs),
+    )
+    return RoundResults(rnd, participants, _items(rnd, m, columns["accuracy"].value), group)
