@@ -12,11 +12,12 @@ from collections.abc import Sequence
 
 import numpy as np
 
-from reportgen.columns import Array, Column, Counts, Tables
+from reportgen.columns import Array, Column, Tables
 from reportgen.metrics.metad import fit_meta_d_many, ideal_observer, meta_d_interval
 from reportgen.rounds.schema import Scoring
 
 FEW_ERRORS_NOTE = "few errors: unstable"
+_UNEVEN_NOTE = "confidence levels are not evenly spaced"
 _IDEAL_NOTE = "needs d′ from conclusive answers on both classes and at least two confidence levels"
 
 
@@ -24,7 +25,7 @@ def participant_seed(round_seed: int, code: str) -> int:
     return (round_seed * 1_000_003 + zlib.crc32(code.encode("utf-8"))) % (2**32)
 
 
-def insight_columns(tables: Tables, levels: Array, counts: Counts, scoring: Scoring,
+def insight_columns(tables: Tables, levels: Array, scoring: Scoring,
                     n_boot: int, codes: Sequence[str]) -> dict[str, Column]:
     """meta_d and m_ratio (with bootstrap intervals and the few-errors flag), and the type-2 ROC
     area and confidence gap expected of an observer with the participant's own d′ and c whose
@@ -36,8 +37,10 @@ def insight_columns(tables: Tables, levels: Array, counts: Counts, scoring: Scor
         "expected_type2_auroc", "expected_conf_gap")}
     notes: dict[str, list[str | None]] = {"meta_d": [], "m_ratio": [], "expected": []}
     step = float(levels[1] - levels[0]) if k > 1 else 1.0
+    even = bool(np.allclose(np.diff(levels), step))
+    n_wrong = tables.wrong.sum(axis=1)  # conclusive errors: what the fits rest on
     for p, (code, fit) in enumerate(zip(codes, fits, strict=True)):
-        flag = FEW_ERRORS_NOTE if counts["errors"][p] < scoring.few_errors else None
+        flag = FEW_ERRORS_NOTE if n_wrong[p] < scoring.few_errors else None
         notes["meta_d"].append(fit.note if fit.meta_d is None else flag)
         notes["m_ratio"].append(fit.note if fit.m_ratio is None else flag)
         if fit.meta_d is not None:
@@ -57,8 +60,9 @@ def insight_columns(tables: Tables, levels: Array, counts: Counts, scoring: Scor
         ideal = ideal_observer(d, c, k, noise_counts=tables.rating_noise[p],
                                signal_counts=tables.rating_signal[p])
         cols["expected_type2_auroc"][p] = ideal.type2_auroc
-        cols["expected_conf_gap"][p] = ideal.conf_gap * step
-        notes["expected"].append(None)
+        # The ideal gap is on the 1..K scale; it converts only when levels are evenly spaced.
+        cols["expected_conf_gap"][p] = ideal.conf_gap * step if even else np.nan
+        notes["expected"].append(None if even else _UNEVEN_NOTE)
     return {
         "meta_d": Column(cols["meta_d"], cols["meta_d_low"], cols["meta_d_high"],
                          notes=tuple(notes["meta_d"])),

@@ -8,16 +8,18 @@ No Python loop runs over items; loops over participants only assemble result obj
 
 from __future__ import annotations
 
-from collections.abc import Mapping, Sequence
+from collections.abc import Mapping
+from typing import Literal
 
 import numpy as np
 import numpy.typing as npt
 
 from reportgen.columns import Column, Masks, Tables, counts, masks, tables
 from reportgen.criteria import judge
-from reportgen.insight import insight_columns
+from reportgen.insight import FEW_ERRORS_NOTE, insight_columns
 from reportgen.metrics.calibration import calibration
 from reportgen.metrics.insight import conf_gap, gamma_correct_confidence, type2_auroc
+from reportgen.metrics.insight import reason as insight_reason
 from reportgen.metrics.items import item_analysis
 from reportgen.metrics.proportions import proportion_ci
 from reportgen.metrics.sdt import rating_auc, sdt_loglinear
@@ -87,8 +89,9 @@ def sdt_columns(c: Mapping[str, npt.NDArray[np.int64]], t: Tables) -> dict[str, 
     }
 
 
-def confidence_columns(t: Tables, levels: Array) -> dict[str, Column]:
-    """Insight from confidence on conclusive answers (DESIGN §3)."""
+def confidence_columns(t: Tables, levels: Array, few_errors: int) -> dict[str, Column]:
+    """Insight from confidence on conclusive answers (DESIGN §3); estimates resting on fewer than
+    ``few_errors`` errors carry the note "few errors: unstable"."""
     def mean(counts: Array) -> Array:
         with np.errstate(divide="ignore", invalid="ignore"):
             result: Array = (counts * levels).sum(axis=1) / counts.sum(axis=1)
@@ -96,33 +99,26 @@ def confidence_columns(t: Tables, levels: Array) -> dict[str, Column]:
 
     gap = mean_difference(levels, t.correct, t.wrong)
     n_right, n_wrong = t.correct.sum(axis=1), t.wrong.sum(axis=1)
+    few = [FEW_ERRORS_NOTE if n < few_errors else None for n in n_wrong]
     auroc2 = type2_auroc(t.correct, t.wrong)
     se2 = hanley_mcneil_se(auroc2, n_right, n_wrong)
-    no_err = "no errors"
-    reason = np.where(n_wrong == 0, no_err, np.where(n_right == 0, "no correct answers",
-                                                    "not estimable"))
-    notes = tuple(str(r) for r in reason)
-    used_levels = ((t.correct + t.wrong) > 0).sum(axis=1)
-    g_notes = tuple(
-        "only one confidence level used" if u == 1 and nw > 0 and nr > 0 else str(r)
-        for u, nw, nr, r in zip(used_levels, n_wrong, n_right, reason, strict=True)
-    )
+    gap_value = conf_gap(t.correct, t.wrong, levels)
+    gamma = gamma_correct_confidence(t.correct, t.wrong)
+
+    def notes(metric: Literal["type2_auroc", "gamma", "conf_gap"]) -> tuple[str | None, ...]:
+        why = insight_reason(t.correct, t.wrong, metric)
+        return tuple(w if w is not None else f for w, f in zip(why, few, strict=True))
+
     return {
         "mean_confidence_correct": Column(mean(t.correct), reason="no correct answers"),
-        "mean_confidence_wrong": Column(mean(t.wrong), reason=no_err),
+        "mean_confidence_wrong": Column(mean(t.wrong), reason="no errors"),
         "mean_confidence_inconclusive": Column(mean(t.inconclusive),
                                                reason="no inconclusive answers"),
-        "conf_gap": Column(conf_gap(t.correct, t.wrong, levels), gap.low, gap.high,
-                           notes=_only_nan(conf_gap(t.correct, t.wrong, levels), notes)),
+        "conf_gap": Column(gap_value, gap.low, gap.high, notes=notes("conf_gap")),
         "type2_auroc": Column(auroc2, np.clip(auroc2 - 1.96 * se2, 0, 1),
-                              np.clip(auroc2 + 1.96 * se2, 0, 1), notes=_only_nan(auroc2, notes)),
-        "gamma": Column(gamma_correct_confidence(t.correct, t.wrong),
-                        notes=_only_nan(gamma_correct_confidence(t.correct, t.wrong), g_notes)),
+                              np.clip(auroc2 + 1.96 * se2, 0, 1), notes=notes("type2_auroc")),
+        "gamma": Column(gamma, notes=notes("gamma")),
     }
-
-
-def _only_nan(values: Array, notes: Sequence[str]) -> tuple[str | None, ...]:
-    return tuple(n if not np.isfinite(v) else None for v, n in zip(values, notes, strict=True))
 
 
 def probabilities(rnd: Round, levels: Array) -> Array | None:
@@ -214,8 +210,8 @@ def score_round(rnd: Round, settings: Settings) -> RoundResults:
     columns: dict[str, Column] = {}
     columns.update(rate_columns(c, cfg.scoring.interval))
     columns.update(sdt_columns(c, t))
-    columns.update(confidence_columns(t, m.levels))
-    columns.update(insight_columns(t, m.levels, c, cfg.scoring, settings.report.bootstrap,
+    columns.update(confidence_columns(t, m.levels, cfg.scoring.few_errors))
+    columns.update(insight_columns(t, m.levels, cfg.scoring, settings.report.bootstrap,
                                    rnd.participants))
     probs = probabilities(rnd, m.levels)
     if probs is not None:

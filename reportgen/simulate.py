@@ -621,7 +621,6 @@ interval = "wilson"
 inconclusive_is_error = false
 allow_missing = false
 normalise_labels = false
-few_errors = 8
 seed = {meta.scoring_seed}
 
 {files}

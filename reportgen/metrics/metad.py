@@ -33,7 +33,7 @@ from scipy import optimize, special, stats
 
 FloatArray = npt.NDArray[np.float64]
 BoolArray = npt.NDArray[np.bool_]
-Counts = Sequence[float] | npt.NDArray[np.float64] | npt.NDArray[np.int64]
+Counts = npt.ArrayLike  # one rating table side: 2K counts
 
 NOTE_NO_ANSWERS = "no conclusive answers"
 NOTE_ONE_TRUTH_CLASS = "no conclusive answers on one truth class"
@@ -45,22 +45,31 @@ NOTE_RATE_0_OR_1 = "a hit or false-alarm rate of 0 or 1 (unpadded table)"
 NOTE_NOT_CONVERGED = "the fit did not converge"
 
 D_PRIME_MIN = 0.3
-"""Below this |d′| the M-ratio is not reported (meta-d′ still is).
+"""Below this |d′| the M-ratio is not reported (meta-d′ still is; at |d′| < 1e-6 neither is, as
+meta-c = meta-d′·c/d′ is undefined). A d′ below −0.3 (systematically reversed answers) keeps its
+ratio, as in the authors' code.
 
 0.3 is about one standard error of d′ at d′ = 0 for a 60-item round (30 + 30 conclusive answers:
 Gourevitch–Galanter SE ≈ 0.32), i.e. a d′ this small cannot be told from chance, and a ratio with
 such a denominator swings without bound."""
 
-FEW_ERRORS_THRESHOLD = 8
+FEW_ERRORS_THRESHOLD = 11
 """Fewer conclusive errors than this: meta-d′ and the M-ratio are flagged as unstable.
 
-Basis: ``scripts/simulate_metad_stability.py`` (numbers in ``docs/metacognition.md``). For simulated
-ideal observers (true M-ratio 1; d′ 1–2.5, K = 5, 60 items) the 90 % range of the estimated M-ratio
-is wider than 1.0 (e.g. 0.4–1.4: a poor and a perfect observer cannot be told apart) whenever fewer
-than 8 errors were made. No published minimum was found."""
+Basis: ``scripts/simulate_metad_stability.py`` (numbers in ``docs/metacognition.md``). Ideal
+observers (true M-ratio 1), 60 items, K = 5, d′ ~ U(1.5, 2): among those who made e errors, fewer
+than 90 % get an M-ratio within a factor of two of the truth (0.5–2) for every e ≤ 10 (89 % at 10,
+67 % at 5), and the median is biased low (0.86 at 10 errors, 0.60 at 5): with few errors, a lucky
+run inflates d′ and an ideal observer looks like a poor one. At 11–17 errors 91–95 % (above that,
+such a participant's d′ is small and the ratio widens for that reason). The cut depends on the
+design (5–14 errors for other populations and round lengths, see the note); no published minimum
+was found."""
 
 _MAX_ITER = 100
 _TOL = 1e-10  # Newton decrement (log-likelihood units) at which a fit counts as converged
+_BOOT_TOL = 1e-7  # bootstrap replicates: ample for percentiles
+_BOOT_MAX_ITER = 40
+_BOOT_ACCEPT = 1e-3  # a replicate still short of _BOOT_TOL after 40 steps is kept below this
 _GAP_BOUNDS = (-20.0, 6.0)  # log-gap clip: e^-20 is a zero-width bin, e^6 an infinite criterion
 _META_D_BOUND = 15.0
 
@@ -208,8 +217,7 @@ def _log_lik(batch: _Batch, theta: FloatArray) -> FloatArray:
     total = np.zeros(theta.shape[0])
     for counts, mu in zip((batch.noise, batch.signal), _means(theta, batch.ratio), strict=True):
         logp = np.where(counts > 0, counts * _log_cells(edges - mu[:, None]), 0.0)
-        left = special.log_ndtr(-mu)
-        right = special.log_ndtr(mu)
+        left, right = special.log_ndtr(-mu), special.log_ndtr(mu)
         total += logp.sum(1) - counts[:, :k].sum(1) * left - counts[:, k:].sum(1) * right
     return total
 
@@ -220,6 +228,7 @@ def _score_and_info(batch: _Batch, theta: FloatArray) -> tuple[FloatArray, Float
     n_b, n_p = theta.shape
     edges = _edges(theta, k)
     free = np.r_[1:k, k + 1 : 2 * k]
+    left_side = (np.arange(2 * k) < k)[None, :]  # cells of "different" answers
     grad_u = np.zeros((n_b, n_p))
     info_u = np.zeros((n_b, n_p, n_p))
     dmu_dm = (-(0.5 + batch.ratio), 0.5 - batch.ratio)
@@ -236,29 +245,19 @@ def _score_and_info(batch: _Batch, theta: FloatArray) -> tuple[FloatArray, Float
         jac[:, idx, idx + 1] = up
         jac[:, idx, idx] = down
         dlogp_dmu = -jac.sum(2)
-        log_pdf_mu = _log_pdf(mu)
-        log_side = special.log_ndtr(-mu), special.log_ndtr(mu)
-        # d log Φ(∓μ)/dμ as Mills ratios in log space, so that large |μ| does not give 0/0.
-        dlog_side = np.hstack(
-            [
-                np.repeat(-np.exp(log_pdf_mu - log_side[0])[:, None], k, 1),
-                np.repeat(np.exp(log_pdf_mu - log_side[1])[:, None], k, 1),
-            ]
+        log_side = np.where(
+            left_side, special.log_ndtr(-mu)[:, None], special.log_ndtr(mu)[:, None]
         )
+        # d log Φ(∓μ)/dμ as Mills ratios in log space, so that large |μ| does not give 0/0.
+        dlog_side = np.where(left_side, -1.0, 1.0) * np.exp(_log_pdf(mu)[:, None] - log_side)
         score = np.empty((n_b, 2 * k, n_p))
         score[:, :, 0] = (dlogp_dmu - dlog_side) * dmu[:, None]
         score[:, :, 1:] = jac[:, :, free]
         grad_u += np.einsum("bj,bjp->bp", counts, score)
-        side_total = np.hstack(
-            [
-                np.repeat(counts[:, :k].sum(1, keepdims=True), k, 1),
-                np.repeat(counts[:, k:].sum(1, keepdims=True), k, 1),
-            ]
+        side_total = np.where(
+            left_side, counts[:, :k].sum(1, keepdims=True), counts[:, k:].sum(1, keepdims=True)
         )
-        log_norm = np.hstack(
-            [np.repeat(log_side[0][:, None], k, 1), np.repeat(log_side[1][:, None], k, 1)]
-        )
-        weight = side_total * np.exp(log_cells - log_norm)  # expected count of each cell
+        weight = side_total * np.exp(log_cells - log_side)  # expected count of each cell
         info_u += np.einsum("bj,bjp,bjq->bpq", weight, score, score)
     jac_theta = _edge_jacobian(theta, k)
     grad = np.einsum("bpq,bp->bq", jac_theta, grad_u)
@@ -306,24 +305,36 @@ def _clip(theta: FloatArray) -> FloatArray:
     return out
 
 
-def _fit_batch(batch: _Batch) -> tuple[FloatArray, FloatArray, BoolArray]:
-    """Fisher scoring with step-halving on all tables at once: (theta, logL, converged)."""
+def _fit_batch(batch: _Batch, bootstrap: bool = False) -> tuple[FloatArray, FloatArray, BoolArray]:
+    """Fisher scoring with step-halving on all tables at once: (theta, logL, converged).
+
+    Single fits that stall go to an L-BFGS-B fallback. Bootstrap replicates use a looser
+    tolerance and are accepted when nearly converged (no per-replicate fallback: it would cost
+    more than the whole batch, for a change in meta-d′ of the order of 1e-3).
+    """
+    tol, max_iter = (_BOOT_TOL, _BOOT_MAX_ITER) if bootstrap else (_TOL, _MAX_ITER)
     with np.errstate(all="ignore"):
-        theta, loglik, converged = _fisher_scoring(batch)
+        theta, loglik, converged, decrement = _fisher_scoring(batch, tol, max_iter)
+        if bootstrap:
+            return theta, loglik, converged | (np.isfinite(loglik) & (decrement < _BOOT_ACCEPT))
         for i in np.flatnonzero(~converged):
             theta[i], loglik[i], converged[i] = _polish(_subset(batch, np.array([i])), theta[i])
     return theta, loglik, converged
 
 
-def _fisher_scoring(batch: _Batch) -> tuple[FloatArray, FloatArray, BoolArray]:
+def _fisher_scoring(
+    batch: _Batch, tol: float, max_iter: int
+) -> tuple[FloatArray, FloatArray, BoolArray, FloatArray]:
+    """(theta, logL, converged, last Newton decrement) for every table of the batch."""
     theta = _start(batch)
     n_b, n_p = theta.shape
     loglik = _log_lik(batch, theta)
+    last_decrement = np.full(n_b, np.inf)
     done = np.zeros(n_b, dtype=bool)
     failed = ~np.isfinite(loglik)
     done |= failed
     ridge = 1e-9 * np.eye(n_p)
-    for _ in range(_MAX_ITER):
+    for _ in range(max_iter):
         active = np.flatnonzero(~done)
         if active.size == 0:
             break
@@ -335,12 +346,13 @@ def _fisher_scoring(batch: _Batch) -> tuple[FloatArray, FloatArray, BoolArray]:
         scale = np.maximum(np.abs(np.einsum("bii->bi", info)).max(1), 1.0)
         step = np.linalg.solve(info + ridge * scale[:, None, None], grad[..., None])[..., 0]
         decrement = np.einsum("bp,bp->b", grad, step)
+        last_decrement[active] = np.where(bad, np.inf, decrement)
         failed[active[bad]] = True
-        done[active[bad | (decrement < _TOL)]] = True
+        done[active[bad | (decrement < tol)]] = True
         moved = _line_search(sub, theta[active], loglik[active], step)
         theta[active], loglik[active] = moved
     converged = done & ~failed & (np.abs(theta[:, 0]) < _META_D_BOUND)
-    return theta, loglik, converged
+    return theta, loglik, converged, last_decrement
 
 
 def _polish(batch: _Batch, theta: FloatArray) -> tuple[FloatArray, float, bool]:
@@ -368,7 +380,7 @@ def _polish(batch: _Batch, theta: FloatArray) -> tuple[FloatArray, float, bool]:
         options={"maxiter": 2000, "ftol": 1e-15, "gtol": 1e-8},
     )
     x = np.asarray(res.x, dtype=np.float64)
-    ok = bool(res.success) and abs(x[0]) < _META_D_BOUND and np.isfinite(res.fun)
+    ok = bool(res.success) and abs(x[0]) < _META_D_BOUND and float(res.fun) < 1e299
     return x, -float(res.fun), ok
 
 
@@ -407,20 +419,27 @@ def fit_meta_d(noise_counts: Counts, signal_counts: Counts, pad: bool = True) ->
     different, K" … "different, 1", "same, 1" … "sure same, K" (conclusive answers only). With
     ``pad`` 1/(2K) is added to every cell. Never raises on a valid table; see ``NOTE_*``.
     """
-    return fit_meta_d_many([noise_counts], [signal_counts], pad=pad)[0]
+    noise, signal = _as_table(noise_counts, signal_counts)
+    return fit_meta_d_many(noise[None, :], signal[None, :], pad=pad)[0]
 
 
 def fit_meta_d_many(
-    noise_counts: Sequence[Counts] | FloatArray,
-    signal_counts: Sequence[Counts] | FloatArray,
-    pad: bool = True,
+    noise_counts: npt.ArrayLike, signal_counts: npt.ArrayLike, pad: bool = True
 ) -> list[MetaDResult]:
-    """:func:`fit_meta_d` for many tables of the same K at once (much faster than a loop)."""
-    tables = [_as_table(n, s) for n, s in zip(noise_counts, signal_counts, strict=True)]
+    """:func:`fit_meta_d` for many tables of the same K at once (much faster than a loop).
+
+    ``noise_counts``/``signal_counts``: (B, 2K) arrays, or sequences of B tables of equal length.
+    """
+    try:
+        noise_rows = np.asarray(noise_counts, dtype=np.float64)
+        signal_rows = np.asarray(signal_counts, dtype=np.float64)
+    except ValueError as exc:  # ragged input
+        raise ValueError("fit_meta_d_many needs tables with the same number of levels") from exc
+    if noise_rows.ndim != 2 or noise_rows.shape[0] != signal_rows.shape[0]:
+        raise ValueError("fit_meta_d_many needs two (B, 2K) arrays of tables")
+    tables = [_as_table(n, s) for n, s in zip(noise_rows, signal_rows, strict=True)]
     if not tables:
         return []
-    if len({t[0].size for t in tables}) != 1:
-        raise ValueError("fit_meta_d_many needs tables with the same number of levels")
     noise = np.vstack([t[0] for t in tables])
     signal = np.vstack([t[1] for t in tables])
     reasons = [degenerate_reason(n, s) for n, s in tables]
@@ -433,7 +452,9 @@ def fit_meta_d_many(
     fit_rows: list[int] = []
     for i, reason in enumerate(reasons):
         early = reason or _type1_problem(float(d[i]))
-        if early is not None:
+        if early in (NOTE_NO_ANSWERS, NOTE_ONE_TRUTH_CLASS):  # d′ would rest on padding alone
+            results[i] = _not_estimable(np.nan, np.nan, early)
+        elif early is not None:
             results[i] = _not_estimable(d[i], c[i], early)
         else:
             fit_rows.append(i)
@@ -509,8 +530,10 @@ def meta_d_interval(
     multinomial with the observed proportions (class totals fixed), then refits d′, c and meta-d′
     exactly as :func:`fit_meta_d` does (padding included). Replicates whose fit does not converge
     are dropped; replicates with no errors are kept (the padded fit is defined for them). The
-    M-ratio interval uses each replicate's own d′, so it carries the uncertainty of d′ too.
-    Deterministic for a given ``seed``. 500 replicates: about 0.1–0.2 s for a 60-item table.
+    M-ratio interval uses each replicate's own d′, so it carries the uncertainty of d′ too; with
+    a d′ near 0 this makes it very wide, as it should be. Deterministic for a given ``seed``.
+    500 replicates: about 0.1–0.2 s for a 60-item table (one vectorised fit of all replicates).
+    Fewer than half the replicates usable: both intervals ``None``.
     """
     noise, signal = _as_table(noise_counts, signal_counts)
     point = fit_meta_d(noise, signal, pad=pad)
@@ -526,7 +549,7 @@ def meta_d_interval(
         d, c = _type1(boot_noise, boot_signal)
     usable = np.flatnonzero(np.isfinite(d) & (np.abs(d) > 1e-6))
     batch = _Batch(boot_noise[usable], boot_signal[usable], d[usable], c[usable] / d[usable])
-    theta, _, converged = _fit_batch(batch)
+    theta, _, converged = _fit_batch(batch, bootstrap=True)
     meta = theta[converged, 0]
     if meta.size < n_boot / 2:
         return MetaDInterval(None, None, None, None, level, n_boot)
@@ -611,6 +634,8 @@ def ideal_observer(
         said_signal = np.diff(stats.norm.cdf(right_edges - mean))
         (correct if not is_signal else wrong)[:] += weight * said_noise
         (correct if is_signal else wrong)[:] += weight * said_signal
+    if not (correct.sum() > 0 and wrong.sum() > 0):
+        raise ValueError(f"d′ = {d_prime} leaves no correct or no wrong answers to compare")
     return IdealInsight(type2_auroc=_auroc2(correct, wrong), conf_gap=_conf_gap(correct, wrong))
 
 

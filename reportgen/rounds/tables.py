@@ -34,7 +34,7 @@ import zlib
 from collections import Counter
 from collections.abc import Callable, Iterable, Iterator, Sequence
 from dataclasses import dataclass, field
-from functools import cached_property
+from functools import cached_property, lru_cache
 from itertools import islice, zip_longest
 from operator import itemgetter
 from pathlib import Path, PurePosixPath
@@ -520,16 +520,54 @@ _OWN_XML_MAX = 16 << 20  # workbook.xml and its relationships, which reportgen p
 _WORKBOOK = "xl/workbook.xml"  # the paths calamine reads, whatever [Content_Types] says
 _WORKBOOK_RELS = "xl/_rels/workbook.xml.rels"
 
-# The quick scan trusts only cells written the way every spreadsheet program writes them,
-# <c r="B7" ...>; any other cell tag (another attribute order, a namespace prefix, no address)
-# sends the sheet through the full parse instead.
-_CANONICAL_CELL = b'<c r="'
-_ODD_CELL = re.compile(rb'<c(?! r="[A-Z]{1,3}[0-9]{1,7}")[\s/>]')
-_PREFIXED_CELL = re.compile(rb'<[^\s<>/:"\']+:c[\s/>]')
-_CELL_ROW = re.compile(rb'<c r="[A-Z]{1,3}([0-9]{1,7})"')
-_CELL_COLUMN = re.compile(rb'<c r="([A-Z]{1,3})[0-9]{1,7}"')
-_MARKERS = (b"f>", b't="e"', b"t='e'")  # a formula (<f>…</f>) or an error value; may misfire
 _UNIQUE_COUNT = re.compile(rb"\buniqueCount\s*=\s*[\"']([^\"']{0,64})[\"']")
+_SHEET_ROOT = re.compile(rb'<(?:([^\s<>/:"\']+):)?worksheet[\s>]')
+_MARKERS = (b"f>", b't="e"', b"t='e'")  # a formula (<f>…</f>) or an error value; may misfire
+_ERROR_TYPE = re.compile(rb"\st\s*=\s*[\"']e[\"']")
+
+
+@dataclass(frozen=True)
+class _Markup:
+    """Byte patterns for the cells of a sheet whose tags carry ``prefix`` (``b""`` or ``b"x:"``).
+
+    The quick scan trusts only cells written the way spreadsheet programs write them,
+    ``<c r="B7" ...>``; a cell tag written otherwise (another attribute first, no address,
+    another prefix) makes the sheet "odd", and it is parsed in full instead.
+    """
+
+    cell: bytes  # <c r="
+    tag: bytes  # <c
+    odd: re.Pattern[bytes]  # a tag of this prefix not starting <c r="A1"
+    foreign: re.Pattern[bytes]  # a cell tag with another prefix, or none
+    foreign_hint: bytes | None  # present in any chunk `foreign` can match; None: always look
+    row: re.Pattern[bytes]
+    column: re.Pattern[bytes]
+    ref: re.Pattern[bytes]
+    formula_tag: re.Pattern[bytes]
+    value: re.Pattern[bytes]
+    formula: re.Pattern[bytes]
+    cell_end: bytes
+    row_end: bytes
+
+
+@lru_cache(maxsize=8)
+def _markup(prefix: bytes) -> _Markup:
+    p = re.escape(prefix)
+    return _Markup(
+        cell=b"<" + prefix + b'c r="',
+        tag=b"<" + prefix + b"c",
+        odd=re.compile(rb"<" + p + rb'c(?! r="[A-Z]{1,3}[0-9]{1,7}")[\s/>]'),
+        foreign=re.compile(rb"<(?!" + p + rb'c[\s/>])(?:[^\s<>/:"\']+:)?c[\s/>]'),
+        foreign_hint=None if prefix else b":c",
+        row=re.compile(rb"<" + p + rb'c r="[A-Z]{1,3}([0-9]{1,7})"'),
+        column=re.compile(rb"<" + p + rb'c r="([A-Z]{1,3})[0-9]{1,7}"'),
+        ref=re.compile(rb"<" + p + rb'c r="([A-Z]{1,3})([0-9]{1,7})"'),
+        formula_tag=re.compile(rb"<" + p + rb"f[\s>/]"),
+        value=re.compile(rb"<" + p + rb"v(?:\s[^>]*)?>([^<]*)</" + p + rb"v>"),
+        formula=re.compile(rb"<" + p + rb"f(?:\s[^>]*)?>([^<]*)</" + p + rb"f>"),
+        cell_end=b"</" + prefix + b"c>",
+        row_end=b"</" + prefix + b"row>",
+    )
 
 
 @dataclass
@@ -539,8 +577,8 @@ class _Scan:
     ``has_values`` says a value element (``<v>``, ``<is>``) occurs; ``rows`` and ``columns`` are
     the span (1-based, inclusive) of the cells, which calamine allocates in full. ``odd`` means
     cells not written the usual way were seen, so the span is not known from the scan;
-    ``marked`` means a formula or an error value may be present. Both call for the full parse
-    (:func:`_parse_sheet`).
+    ``marked`` means a formula or an error value may be present. ``markup`` holds the patterns
+    for the tag prefix found on the sheet's root element.
     """
 
     has_values: bool = False
@@ -548,24 +586,30 @@ class _Scan:
     columns: tuple[int, int] | None = None
     odd: bool = False
     marked: bool = False
+    markup: _Markup | None = None
 
     def add(self, chunk: bytes) -> None:
+        if self.markup is None:
+            root = _SHEET_ROOT.search(chunk)
+            self.markup = _markup(root.group(1) + b":" if root and root.group(1) else b"")
+        markup = self.markup
         if not self.has_values:
             self.has_values = any(tag in chunk for tag in (b"<v", b"<is", b":v", b":is"))
         if not self.marked:
             self.marked = any(marker in chunk for marker in _MARKERS)
-        rows = _CELL_ROW.findall(chunk)
+        rows = markup.row.findall(chunk)
         if not self.odd:
-            canonical = chunk.count(_CANONICAL_CELL)
+            canonical = chunk.count(markup.cell)
             self.odd = (
                 canonical != len(rows)
-                or (chunk.count(b"<c") != canonical and _ODD_CELL.search(chunk) is not None)
-                or (b":c" in chunk and _PREFIXED_CELL.search(chunk) is not None)
+                or (chunk.count(markup.tag) != canonical and markup.odd.search(chunk) is not None)
+                or ((markup.foreign_hint is None or markup.foreign_hint in chunk)
+                    and markup.foreign.search(chunk) is not None)
             )
         if rows:
             numbers = list(map(int, set(rows)))
             self.rows = _widen(self.rows, min(numbers), max(numbers))
-            columns = [_column_number(c) for c in set(_CELL_COLUMN.findall(chunk))]
+            columns = [_column_number(c) for c in set(markup.column.findall(chunk))]
             self.columns = _widen(self.columns, min(columns), max(columns))
 
 
@@ -822,18 +866,18 @@ def _check_size(sheet: _Sheet, limits: ReadLimits) -> None:
     width = scan.columns[1] - scan.columns[0] + 1
     span = (f"{_column_letters(scan.columns[0])}{scan.rows[0]}:"
             f"{_column_letters(scan.columns[1])}{scan.rows[1]}")
-    stray = " (is there a stray value far below or to the right of the table?)"
+    stray = " (is there a stray value or formatted cell far below or right of the table?)"
     if height > limits.max_rows + 1:
-        raise _ReadError(f"has data on {height:,} rows ({span}), more than the "
+        raise _ReadError(f"has cells in use on {height:,} rows ({span}), more than the "
                          f"{limits.max_rows:,} reportgen reads{stray}", sheet=sheet.name,
                          allowed=f"at most {limits.max_rows:,} rows")
     if height * width > limits.max_cells:
-        raise _ReadError(f"has data spanning {height:,} rows x {width:,} columns ({span}), "
+        raise _ReadError(f"has cells in use across {height:,} rows x {width:,} columns ({span}), "
                          f"more than the {limits.max_cells:,} cells reportgen reads{stray}",
                          sheet=sheet.name, allowed=f"at most {limits.max_cells:,} cells")
 
 
-# --------------------------------------------------------------------------- xlsx: exact scan
+# --------------------------------------------------------------------------- xlsx: formulas, errors
 
 
 @dataclass
@@ -845,47 +889,42 @@ class _CellNotes:
 
 
 _REF = re.compile(r"([A-Z]{1,3})([0-9]{1,7})")
-_CELL_REF = re.compile(rb'<c r="([A-Z]{1,3})([0-9]{1,7})"')
-_FORMULA_TAG = re.compile(rb"<f[\s>/]")
-_ERROR_TYPE = re.compile(rb"\st\s*=\s*[\"']e[\"']")
-_VALUE = re.compile(rb"<v(?:\s[^>]*)?>([^<]*)</v>")
-_FORMULA = re.compile(rb"<f(?:\s[^>]*)?>([^<]*)</f>")
 
 
-def _quick_notes(chunks: Iterable[bytes]) -> _CellNotes:
+def _quick_notes(chunks: Iterable[bytes], markup: _Markup) -> _CellNotes:
     """Formulas without a result and error values of a sheet whose cells are all written the
     usual way (``<c r="B7" ...>``): only the cells around a ``<f>`` or ``t="e"`` are looked at."""
     notes = _CellNotes()
 
     def scan(piece: bytes) -> None:
-        hits = sorted({m.start() for m in _FORMULA_TAG.finditer(piece)}
+        hits = sorted({m.start() for m in markup.formula_tag.finditer(piece)}
                       | {m.start() for m in _ERROR_TYPE.finditer(piece)})
         seen = -1
         for hit in hits:
-            start = piece.rfind(_CANONICAL_CELL, 0, hit)
+            start = piece.rfind(markup.cell, 0, hit)
             if start < 0 or start == seen:
                 continue
             seen = start
-            stop = piece.find(b"</c>", start)
-            _note_cell_bytes(piece[start: stop if stop >= 0 else len(piece)], notes)
+            stop = piece.find(markup.cell_end, start)
+            _note_cell_bytes(piece[start: stop if stop >= 0 else len(piece)], notes, markup)
 
-    _scan_xml(chunks, scan, end=b"</row>")
+    _scan_xml(chunks, scan, end=markup.row_end)
     return notes
 
 
-def _note_cell_bytes(cell: bytes, notes: _CellNotes) -> None:
-    ref = _CELL_REF.match(cell)
+def _note_cell_bytes(cell: bytes, notes: _CellNotes, markup: _Markup) -> None:
+    ref = markup.ref.match(cell)
     if ref is None:
         return
     place = (int(ref.group(2)), _column_number(ref.group(1)))
     tag_end = cell.find(b">") + 1
     tag, body = cell[:tag_end], (b"" if cell[:tag_end].endswith(b"/>") else cell[tag_end:])
-    value = _VALUE.search(body)
+    value = markup.value.search(body)
     text = _xml_text(value.group(1)) if value else ""
     if _ERROR_TYPE.search(tag) and text:
         notes.errors[place] = text
-    elif _FORMULA_TAG.search(body) and not text.strip():
-        formula = _FORMULA.search(body)
+    elif markup.formula_tag.search(body) and not text.strip():
+        formula = markup.formula.search(body)
         notes.formulas[place] = _xml_text(formula.group(1)) if formula else ""
 
 
@@ -975,18 +1014,20 @@ def _parse_sheet(archive: zipfile.ZipFile, sheet: _Sheet) -> _CellNotes:
 
 def _xlsx_grid(data: bytes, file: str, log: ProblemLog, wanted: str | None,
                limits: ReadLimits) -> _Grid:
-    archive = _open_zip(data, limits)
-    sheets = _sheets(_parts(archive, data))
-    _verify(archive, data, sheets, limits)
-    sheet = _choose(sheets, wanted, file, log)
-    if sheet.member not in archive.namelist():
-        raise _ReadError(_NOT_READABLE, sheet=sheet.name)
-    notes = _CellNotes()
-    if sheet.scan.odd:
-        notes = _parse_sheet(archive, sheet)
-    elif sheet.scan.marked:
-        notes = _quick_notes(_inflate(data, archive.getinfo(sheet.member)))
-    _check_size(sheet, limits)
+    """Guard the workbook (steps 1-4), then read the chosen sheet with calamine (step 5)."""
+    with _open_zip(data, limits) as archive:  # 1. declared sizes and compression ratio
+        sheets = _sheets(_parts(archive, data))  # 2. which sheets, in which parts
+        _verify(archive, data, sheets, limits)  # 3. every part unpacked, sheets measured
+        sheet = _choose(sheets, wanted, file, log)
+        if sheet.member not in archive.namelist():
+            raise _ReadError(_NOT_READABLE, sheet=sheet.name)
+        notes = _CellNotes()
+        if sheet.scan.odd:
+            notes = _parse_sheet(archive, sheet)
+        elif sheet.scan.marked:
+            notes = _quick_notes(_inflate(data, archive.getinfo(sheet.member)),
+                                 sheet.scan.markup or _markup(b""))
+    _check_size(sheet, limits)  # 4. the area calamine will allocate
     values, origin, merged = _calamine_values(data, sheet.name, [s.name for s in sheets])
     rows, kinds = _sheet_texts(values)
     numbers = range(origin[0] + 1, origin[0] + 1 + len(rows))
@@ -1092,13 +1133,13 @@ def _cell_text(value: _CellValue) -> tuple[str, str]:
 
 def _report_cells(table: Table, names: dict[int, str], log: ProblemLog, notes: _CellNotes,
                   merged: _Ranges) -> None:
-    """Formulas with no saved result and merged cells, where they touch the table.
+    """Formulas with no saved result (anywhere on the sheet: a row of them reads as empty and
+    would vanish) and merged cells that touch the table.
 
     ``names`` maps a sheet column number (1-based) to the header of that column.
     """
     last_row = table.row_numbers[-1] if table.row_numbers else table.header_row
-    formulas = sorted((row, col, text) for (row, col), text in notes.formulas.items()
-                      if table.header_row <= row <= last_row)
+    formulas = sorted((row, col, text) for (row, col), text in notes.formulas.items())
     for row, col, formula in formulas[:_MAX_REPORTS]:
         log.error(table.file, f"cell {_column_letters(col)}{row} has a formula but no saved "
                   "result (the file was written by a program that does not calculate); open "

@@ -422,15 +422,31 @@ def test_xlsx_formula_without_saved_result(tmp_path: Path) -> None:
     ]
 
 
-def test_xlsx_formula_with_saved_result_is_read(tmp_path: Path) -> None:
+@pytest.mark.parametrize("prefix", ["", "x:"])
+def test_xlsx_formulas_with_and_without_saved_results(tmp_path: Path, prefix: str) -> None:
     path = _book(tmp_path, _key)
-    _swap_member(path, "xl/worksheets/sheet1.xml", (
-        f'<worksheet {SHEET_NS}><sheetData><row r="1"><c r="A1" t="inlineStr"><is><t>n</t></is>'
-        '</c></row><row r="2"><c r="A2"><f>1+1</f><v>2</v></c></row></sheetData></worksheet>'
-    ).encode())
+    ns = SHEET_NS.replace("xmlns=", f"xmlns:{prefix[:-1]}=") if prefix else SHEET_NS
+    cells = (
+        '<row r="1"><c r="A1" t="inlineStr"><is><t>n</t></is></c>'
+        '<c r="B1" t="inlineStr"><is><t>m</t></is></c></row>'
+        '<row r="2"><c r="A2"><f>1+1</f><v>2</v></c><c r="B2" t="e"><f>1/0</f><v>#DIV/0!</v></c>'
+        '</row><row r="3"><c r="A3"><f t="shared" ref="A3:A5" si="0">A2&amp;"x"</f><v>2x</v></c>'
+        '</row><row r="4"><c r="A4"><f t="shared" si="0"/><v>3</v></c></row>'
+        '<row r="5"><c r="A5"><f t="shared" si="0"/></c></row>'
+    )
+    xml = f'<worksheet {ns}><sheetData>{cells}</sheetData></worksheet>'
+    if prefix:
+        xml = xml.replace("</", "</x:").replace("<", "<x:").replace("<x:/x:", "</x:")
+    _swap_member(path, "xl/worksheets/sheet1.xml", xml.encode())
     table, log = _read(path)
-    assert log.problems == []
-    assert table is not None and table.rows == (("2",),)
+    assert table is not None
+    assert table.rows == (("2", "#DIV/0!"), ("2x", ""), ("3", ""))  # row 5 reads as empty
+    assert table.kinds == ("ne", "sz", "nz")
+    assert _messages(log) == [
+        "t.xlsx, sheet 'Data', row 5, column 'n': cell A5 has a formula but no saved result (the "
+        "file was written by a program that does not calculate); open it in Excel or "
+        "LibreOffice and save it again, or type the values in (value '=')"
+    ]
 
 
 def test_xlsx_merged_cells_outside_the_table_are_ignored(tmp_path: Path) -> None:
@@ -608,9 +624,9 @@ def test_xlsx_stray_far_cell_is_refused_before_calamine(tmp_path: Path) -> None:
         ws["XFD1048576"] = "x"  # calamine would allocate 17 billion cells and abort
 
     assert _read_in_child(_book(tmp_path, fill)) == [
-        "t.xlsx, sheet 'Data': has data on 1,048,576 rows (A1:XFD1048576), more than the "
-        "200,000 reportgen reads (is there a stray value far below or to the right of the "
-        "table?); allowed: at most 200,000 rows"
+        "t.xlsx, sheet 'Data': has cells in use on 1,048,576 rows (A1:XFD1048576), more than "
+        "the 200,000 reportgen reads (is there a stray value or formatted cell far below or right "
+        "of the table?); allowed: at most 200,000 rows"
     ]
 
 
@@ -622,9 +638,9 @@ def test_xlsx_area_limit(tmp_path: Path) -> None:
     table, log = _read(_book(tmp_path, fill))
     assert table is None
     assert _messages(log) == [
-        "t.xlsx, sheet 'Data': has data spanning 10,000 rows x 702 columns (A1:ZZ10000), more than "
-        "the 5,000,000 cells reportgen reads (is there a stray value far below or to the right "
-        "of the table?); allowed: at most 5,000,000 cells"
+        "t.xlsx, sheet 'Data': has cells in use across 10,000 rows x 702 columns (A1:ZZ10000), "
+        "more than the 5,000,000 cells reportgen reads (is there a stray value or formatted cell "
+        "far below or right of the table?); allowed: at most 5,000,000 cells"
     ]
 
 
@@ -647,9 +663,9 @@ def test_xlsx_cells_without_address_are_placed_like_calamine(tmp_path: Path) -> 
         '</is></c></row><row r="1048576"><c><v>1</v></c></row></sheetData></worksheet>'
     ).encode())
     assert _read_in_child(path) == [
-        "t.xlsx, sheet 'Data': has data on 1,048,576 rows (A1:A1048576), more than the 200,000 "
-        "reportgen reads (is there a stray value far below or to the right of the table?); "
-        "allowed: at most 200,000 rows"
+        "t.xlsx, sheet 'Data': has cells in use on 1,048,576 rows (A1:A1048576), more than the "
+        "200,000 reportgen reads (is there a stray value or formatted cell far below or right of "
+        "the table?); allowed: at most 200,000 rows"
     ]
 
 
@@ -662,7 +678,7 @@ def test_xlsx_namespace_prefixed_cells(tmp_path: Path) -> None:
         '<x:row r="2"><x:c r="A2"><x:v>3</x:v></x:c></x:row>'
         '<x:row r="3"><x:c r="XFD1048576"><x:v>3</x:v></x:c></x:row>'
         '</x:sheetData></x:worksheet>').encode())
-    assert "has data on 1,048,576 rows" in _read_in_child(path)[0]
+    assert "has cells in use on 1,048,576 rows" in _read_in_child(path)[0]
 
 
 def test_xlsx_false_shared_string_count_is_refused(tmp_path: Path) -> None:
