@@ -30,6 +30,8 @@ golden: $(STAMP)
 
 bench: $(STAMP)
 	$(BIN)/python benchmarks/bench_scoring.py
+	$(BIN)/python benchmarks/bench_metad.py
+	$(BIN)/python benchmarks/bench_render.py
 
 clean:
 	rm -rf $(VENV) demo-output

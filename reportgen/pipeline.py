@@ -6,13 +6,15 @@ Nothing here prints or exits; progress is reported through a callback and proble
 
 from __future__ import annotations
 
-from collections.abc import Callable
+import itertools
+from collections.abc import Callable, Iterable, Iterator, Mapping
 from dataclasses import dataclass
 from pathlib import Path
 
 from reportgen.errors import InputError, Problem
 from reportgen.names import KNOWN_METRICS
 from reportgen.output import ManifestInput, Staging, manifest, sha256_bytes
+from reportgen.render.batch import output_names, render_documents
 from reportgen.render.results_json import results_json
 from reportgen.render.workbook import results_workbook
 from reportgen.resources import config_dir, sample_rounds_dir
@@ -57,9 +59,11 @@ def _settings_hash(settings: Settings) -> str:
 
 
 def _write_all(out: Path, results: RoundResults, settings: Settings,
-               documents: dict[str, bytes], file_names: dict[str, str] | None) -> RunSummary:
+               documents: Iterable[tuple[str, bytes]],
+               file_names: Mapping[str, str] | None) -> RunSummary:
+    """Write every document into a locked staging folder, then the manifest, then swap it in."""
     with Staging(out) as stage:
-        for name, data in sorted(documents.items()):
+        for name, data in documents:
             stage.write(name, data)
         stage.write("manifest.json", manifest(
             round_id=results.round.config.round.id,
@@ -83,8 +87,33 @@ def score(folder: Path, out: Path, settings: Settings,
     results = score_round(rnd, settings)
     progress("scoring", 1, 1)
     # 3. Render to bytes, then 4. write atomically.
-    documents = {"results.json": results_json(results), "results.xlsx": results_workbook(results)}
-    return _write_all(out, results, settings, documents, None)
+    return _write_all(out, results, settings, _tables(results), None)
+
+
+def _tables(results: RoundResults) -> Iterator[tuple[str, bytes]]:
+    yield "results.json", results_json(results)
+    yield "results.xlsx", results_workbook(results)
+
+
+def issue(folder: Path, out: Path, settings: Settings, *, jobs: int = 1,
+          progress: Progress = _silent) -> RunSummary:
+    """`reportgen issue`: everything `score` writes, plus every certificate (HTML and PDF) and
+    the group appendix; documents are rendered in ``jobs`` worker processes."""
+    # 1. Load and validate everything before anything is written.
+    rnd = load(folder)
+    # 2. Compute.
+    progress("scoring", 0, 1)
+    results = score_round(rnd, settings)
+    progress("scoring", 1, 1)
+    # 3. Render (in workers) and 4. write, streaming each document into the staging folder.
+    names = output_names(results)
+    documents = itertools.chain(
+        _tables(results),
+        render_documents(results, settings, jobs=jobs,
+                         progress=lambda done, total: progress("certificates", done, total)),
+    )
+    file_names = {code: f"{stem}.pdf" for code, stem in names.items()}
+    return _write_all(out, results, settings, documents, file_names)
 
 
 def newest_sample_round() -> Path:

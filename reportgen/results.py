@@ -10,6 +10,7 @@ from collections.abc import Mapping
 from dataclasses import dataclass
 from typing import Literal
 
+from reportgen.metrics.selfestimate import AbilityGroup, QuartileView
 from reportgen.rounds.model import Round
 
 
@@ -71,6 +72,10 @@ class ParticipantResult:
     criteria: tuple[CriterionOutcome, ...]
     overall: Overall
     overall_text: str
+    # Conclusive answers by rating, "sure different" ... "sure same" (2K cells), on different- and
+    # on same-source items: the table meta-d′ is fitted on, kept so rounds can be pooled.
+    rating_noise: tuple[int, ...] = ()
+    rating_signal: tuple[int, ...] = ()
 
 
 @dataclass(frozen=True)
@@ -100,6 +105,28 @@ class Distribution:
     maximum: float | None
 
 
+EstimateSource = Literal["estimates file", "mean stated confidence"]
+
+
+@dataclass(frozen=True)
+class SelfEstimateView:
+    """The self-estimate-against-score quartile view with its null band and Glejser test."""
+
+    source: EstimateSource
+    score_name: str  # the metric the estimates are set against
+    view: QuartileView
+    reading: str
+
+
+@dataclass(frozen=True)
+class IdealPoint:
+    """A point of the ideal-observer curve: type-2 ROC area expected at d′ (c = 0, levels used
+    equally often), for the type2_auroc-against-d′ view."""
+
+    d_prime: float
+    type2_auroc: float
+
+
 @dataclass(frozen=True)
 class GroupResult:
     n_participants: int
@@ -109,6 +136,10 @@ class GroupResult:
     robust: Mapping[str, tuple[float, float]]  # metric -> (x*, s*) of Algorithm A, for z criteria
     error_types: Mapping[str, int]  # false_positives, false_negatives, inconclusive_same, ...
     levels: tuple[LevelRow, ...]  # pooled over the group
+    self_estimates: SelfEstimateView | None = None
+    self_estimates_note: str | None = None  # why there is no view, when there is none
+    ability_groups: tuple[AbilityGroup, ...] = ()
+    ideal_curve: tuple[IdealPoint, ...] = ()
 
 
 @dataclass(frozen=True, eq=False)

@@ -16,6 +16,7 @@ import numpy.typing as npt
 
 from reportgen.columns import Column, Masks, Tables, counts, masks, tables
 from reportgen.criteria import judge
+from reportgen.group_views import ability_groups, ideal_curve, self_estimate_view
 from reportgen.insight import FEW_ERRORS_NOTE, insight_columns
 from reportgen.metrics.calibration import calibration
 from reportgen.metrics.insight import conf_gap, gamma_correct_confidence, type2_auroc
@@ -232,9 +233,12 @@ def score_round(rnd: Round, settings: Settings) -> RoundResults:
             criteria=verdicts.outcomes[p],
             overall=verdicts.overall[p],
             overall_text=verdicts.overall_text[p],
+            rating_noise=tuple(int(x) for x in t.rating_noise[p]),
+            rating_signal=tuple(int(x) for x in t.rating_signal[p]),
         )
         for p, code in enumerate(rnd.participants)
     )
+    view, view_note = self_estimate_view(rnd, columns, t, probs)
     group = GroupResult(
         n_participants=rnd.n_participants,
         distributions={name: _distribution(col.value) for name, col in columns.items()},
@@ -245,5 +249,9 @@ def score_round(rnd: Round, settings: Settings) -> RoundResults:
             "false_positives", "false_negatives", "inconclusive_same", "inconclusive_different",
             "correct_same", "correct_different", "n_same", "n_different", "missing")},
         levels=_levels(t, None, m.levels, probs),
+        self_estimates=view,
+        self_estimates_note=view_note,
+        ability_groups=ability_groups(columns),
+        ideal_curve=ideal_curve(m.levels.size),
     )
     return RoundResults(rnd, participants, _items(rnd, m, columns["accuracy"].value), group)

@@ -1,7 +1,7 @@
 """Group views of self-estimates and of insight against ability (the group appendix).
 
 Quartile view. Participants are grouped by quartile of actual score, and the mean self-estimate of
-each quarter is set beside its mean score (the figure of Kruger & Dunning 1999). That figure shows
+each quarter is set beside its mean score. That familiar figure shows
 "the weakest overestimate, the strongest underestimate" even when estimates carry no information
 about score, through regression to the mean (Krueger & Mueller 2002; Nuhfer et al. 2016). So every
 quarter carries a *null band*: the 2.5–97.5 % range of its mean estimate when estimates are

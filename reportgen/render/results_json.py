@@ -43,6 +43,8 @@ def participant_json(results: RoundResults, p: ParticipantResult) -> dict[str, A
     out["criteria"] = [
         {**asdict(c), "value": _num(c.value)} for c in p.criteria
     ]
+    out["rating_table"] = {"different_source": list(p.rating_noise),
+                           "same_source": list(p.rating_signal)}
     out["overall"] = p.overall
     out["overall_text"] = p.overall_text
     if results.round.estimates is not None and p.code in results.round.estimates:

@@ -9,6 +9,7 @@ from __future__ import annotations
 
 import datetime as dt
 import io
+import re
 import zipfile
 from collections.abc import Iterable, Sequence
 from typing import Any
@@ -22,6 +23,7 @@ from reportgen.render.results_json import round_json
 from reportgen.results import RoundResults
 
 Cell = str | int | float | None
+_MODIFIED = re.compile(rb"(<dcterms:modified[^>]*>)[^<]*(</dcterms:modified>)")
 
 
 def _append(ws: Worksheet, row: Sequence[Cell]) -> None:
@@ -110,15 +112,23 @@ def _round_rows(results: RoundResults) -> list[list[Cell]]:
 
 
 def _fixed_zip(data: bytes, when: dt.datetime) -> bytes:
-    """Re-pack the workbook with every zip entry dated ``when`` (openpyxl stamps the clock)."""
+    """Re-pack the workbook with every zip entry dated ``when``.
+
+    openpyxl stamps the clock twice on save: as zip entry dates and as the ``dcterms:modified``
+    document property (it overwrites whatever was set); both are replaced by ``when``.
+    """
     src = zipfile.ZipFile(io.BytesIO(data))
     out = io.BytesIO()
+    stamp = when.strftime("%Y-%m-%dT%H:%M:%SZ").encode()
     with zipfile.ZipFile(out, "w", zipfile.ZIP_DEFLATED) as dst:
         for info in src.infolist():
+            content = src.read(info.filename)
+            if info.filename == "docProps/core.xml":
+                content = _MODIFIED.sub(rb"\g<1>" + stamp + rb"\g<2>", content)
             fixed = zipfile.ZipInfo(info.filename, date_time=when.timetuple()[:6])
             fixed.compress_type = zipfile.ZIP_DEFLATED
             fixed.external_attr = info.external_attr
-            dst.writestr(fixed, src.read(info.filename))
+            dst.writestr(fixed, content)
     return out.getvalue()
 
 

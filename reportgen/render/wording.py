@@ -1,0 +1,350 @@
+"""Plain-language wording of the results: number formats and one-line readings of each metric.
+
+Pure functions of their arguments: no locale, no clock. Numbers use a full stop for decimals, the
+typographic minus sign (U+2212) for negatives and a no-break space before ``%``.
+"""
+
+from __future__ import annotations
+
+import datetime as dt
+import math
+from collections.abc import Mapping
+
+from reportgen.results import Metric, ParticipantResult
+from reportgen.rounds.schema import RoundConfig
+
+DASH = "\u2014"  # shown where a value is not available
+MINUS = "\u2212"
+NBSP = "\u00a0"
+
+_MONTHS = ("January", "February", "March", "April", "May", "June", "July", "August",
+           "September", "October", "November", "December")
+
+CAUTIONS: tuple[str, ...] = (
+    "Results from one round are a small sample of an examiner's work. The 95\u00a0% intervals "
+    "shown beside every rate give the range of values compatible with this round; read them "
+    "before the single numbers.",
+    "Measures of insight (how well confidence separates right from wrong answers) rest on the "
+    "errors made, and with few errors they are unstable. Such values are flagged in this report, "
+    "not hidden, and should not be compared between examiners on their own.",
+    "This report is evidence for the provider's own documented procedures. Decisions about an "
+    "examiner's fitness for casework rest with the provider, the employer's quality system and "
+    "the accreditation body, not with this report.",
+)
+
+LABELS: Mapping[str, str] = {
+    "accuracy": "Accuracy (correct / all items)",
+    "error_rate": "Error rate (errors / all items)",
+    "decisive_accuracy": "Accuracy on conclusive answers",
+    "false_positive_rate": "False-positive rate",
+    "false_negative_rate": "False-negative rate",
+    "inconclusive_rate": "Inconclusive rate",
+    "d_prime": "Discriminability d\u2032",
+    "criterion": "Response bias c",
+    "auc": "Rating ROC area",
+    "conf_gap": "Confidence gap (right \u2212 wrong)",
+    "type2_auroc": "Type-2 ROC area",
+    "gamma": "Goodman\u2013Kruskal gamma",
+    "meta_d": "meta-d\u2032",
+    "m_ratio": "M-ratio (meta-d\u2032 / d\u2032)",
+    "mean_confidence_correct": "Mean confidence when right",
+    "mean_confidence_wrong": "Mean confidence when wrong",
+    "mean_confidence_inconclusive": "Mean confidence when inconclusive",
+    "overconfidence": "Over- / underconfidence",
+    "brier": "Brier score",
+    "ece": "Expected calibration error",
+}
+
+RATES = frozenset({"accuracy", "error_rate", "decisive_accuracy", "false_positive_rate",
+                   "false_negative_rate", "inconclusive_rate"})
+
+
+# ---------------------------------------------------------------------------------------------
+# Numbers
+
+
+def _finite(x: float | None) -> bool:
+    return x is not None and math.isfinite(x)
+
+
+def fmt_number(x: float | None, digits: int = 2) -> str:
+    """``1.2345 -> "1.23"``, ``-0.5 -> "−0.50"``; a value that rounds to zero loses its sign."""
+    if x is None or not _finite(x):
+        return DASH
+    text = f"{x:.{digits}f}"
+    if text.startswith("-"):
+        text = text[1:] if float(text) == 0 else MINUS + text[1:]
+    return text
+
+
+def fmt_signed(x: float | None, digits: int = 2) -> str:
+    """Like :func:`fmt_number` with an explicit ``+`` on positive values."""
+    text = fmt_number(x, digits)
+    if x is not None and _finite(x) and not text.startswith(MINUS) and float(text) != 0:
+        return "+" + text
+    return text
+
+
+def fmt_percent(p: float | None, digits: int = 1) -> str:
+    """A proportion as a percentage: ``0.85 -> "85.0 %"`` (no-break space)."""
+    if p is None or not _finite(p):
+        return DASH
+    return f"{fmt_number(100 * p, digits)}{NBSP}%"
+
+
+def fmt_interval(m: Metric, kind: str = "number", digits: int | None = None) -> str:
+    """The 95 % interval of ``m``: ``"74.3–91.9 %"`` for rates, ``"0.42 to 1.87"`` otherwise."""
+    if not (_finite(m.low) and _finite(m.high)):
+        return DASH
+    if kind == "percent":
+        d = 1 if digits is None else digits
+        return f"{fmt_number(100 * (m.low or 0.0), d)}\u2013{fmt_percent(m.high, d)}"
+    d = 2 if digits is None else digits
+    return f"{fmt_number(m.low, d)} to {fmt_number(m.high, d)}"
+
+
+def fmt_date(day: dt.date) -> str:
+    """``2026-05-15 -> "15 May 2026"`` without the locale."""
+    return f"{day.day} {_MONTHS[day.month - 1]} {day.year}"
+
+
+def fmt_value(name: str, m: Metric) -> str:
+    """A metric's value as the report shows it: rates in percent, the rest as numbers."""
+    if not m.estimable:
+        return DASH  # the reading beside it says why
+    return fmt_percent(m.value) if name in RATES else fmt_number(m.value)
+
+
+def count_of(k: int, n: int) -> str:
+    return f"{k} of {n}"
+
+
+def plural(n: int, one: str, many: str | None = None) -> str:
+    return f"{n} {one if n == 1 else (many or one + 's')}"
+
+
+# ---------------------------------------------------------------------------------------------
+# One-line readings
+
+
+def _caution(m: Metric) -> str:
+    if m.estimable and m.note:
+        return f" Caution: {m.note}."
+    return ""
+
+
+def not_estimable(m: Metric) -> str:
+    reason = m.note or "the data cannot support it"
+    return f"Not estimable for you in this round ({reason})."
+
+
+def _scale_unit(cfg: RoundConfig) -> str:
+    scale = cfg.confidence
+    if scale.kind == "probability":
+        return "percentage points"
+    return f"points on the {scale.min:g}\u2013{scale.max:g} scale"
+
+
+def read_accuracy(c: Mapping[str, int], m: Metric) -> str:
+    text = (f"You answered {count_of(c['correct'], c['items'])} items correctly "
+            f"({fmt_percent(m.value)}).")
+    if _finite(m.low) and _finite(m.high):
+        text += (f" With this many items, your underlying rate could plausibly lie anywhere "
+                 f"between {fmt_percent(m.low)} and {fmt_percent(m.high)}.")
+    return text
+
+
+def read_error_rate(c: Mapping[str, int], m: Metric) -> str:
+    if c["errors"] == 0:
+        return "You made no errors: every conclusive answer matched the key."
+    return (f"{plural(c['errors'], 'answer')} contradicted the key "
+            f"({fmt_percent(m.value)} of all items).")
+
+
+def read_decisive_accuracy(c: Mapping[str, int], m: Metric) -> str:
+    if not m.estimable:
+        return not_estimable(m)
+    decisive = c["correct"] + c["errors"]
+    return (f"Of the {decisive} items on which you reached a conclusion, {c['correct']} were "
+            f"correct ({fmt_percent(m.value)}).")
+
+
+def read_false_positive_rate(c: Mapping[str, int], m: Metric, cfg: RoundConfig) -> str:
+    if not m.estimable:
+        return not_estimable(m)
+    pos, neg = cfg.classes.positive, cfg.classes.negative
+    return (f"You answered \u201c{pos}\u201d on {count_of(c['false_positives'], c['n_different'])} "
+            f"{neg}-source items ({fmt_percent(m.value)}). In identification work this is the "
+            "costliest error.")
+
+
+def read_false_negative_rate(c: Mapping[str, int], m: Metric, cfg: RoundConfig) -> str:
+    if not m.estimable:
+        return not_estimable(m)
+    pos, neg = cfg.classes.positive, cfg.classes.negative
+    return (f"You answered \u201c{neg}\u201d on {count_of(c['false_negatives'], c['n_same'])} "
+            f"{pos}-source items ({fmt_percent(m.value)}).")
+
+
+def read_inconclusive_rate(c: Mapping[str, int], m: Metric, cfg: RoundConfig) -> str:
+    if c["inconclusive"] == 0:
+        return "You reached a conclusion on every item."
+    pos, neg = cfg.classes.positive, cfg.classes.negative
+    return (f"You answered inconclusive on {count_of(c['inconclusive'], c['items'])} items "
+            f"({fmt_percent(m.value)}): {c['inconclusive_same']} {pos}-source and "
+            f"{c['inconclusive_different']} {neg}-source. "
+            + ("This round counts an inconclusive as an error." if cfg.scoring.inconclusive_is_error
+               else "An inconclusive is counted neither right nor wrong."))
+
+
+def read_d_prime(m: Metric) -> str:
+    if not m.estimable:
+        return not_estimable(m)
+    return (f"Your conclusive answers separated the two kinds of item with d\u2032 = "
+            f"{fmt_number(m.value)}; 0 is chance and values above 2 mean a clear separation."
+            + _caution(m))
+
+
+def read_criterion(m: Metric, cfg: RoundConfig) -> str:
+    if not m.estimable or m.value is None:
+        return not_estimable(m)
+    pos, neg = cfg.classes.positive, cfg.classes.negative
+    if abs(m.value) < 0.1:
+        lean = "you had no marked lean towards either answer"
+    elif m.value > 0:
+        lean = f"you leaned towards answering \u201c{neg}\u201d"
+    else:
+        lean = f"you leaned towards answering \u201c{pos}\u201d"
+    return f"c = {fmt_number(m.value)}: {lean} (0 means no lean)." + _caution(m)
+
+
+def read_auc(m: Metric, cfg: RoundConfig) -> str:
+    if not m.estimable:
+        return not_estimable(m)
+    pos, neg = cfg.classes.positive, cfg.classes.negative
+    return (f"Taking conclusion and confidence together, a {pos}-source item got a more "
+            f"\u201c{pos}\u201d rating than a {neg}-source item {fmt_percent(m.value, 0)} of the "
+            "time (50\u00a0% is chance, 100\u00a0% perfect).")
+
+
+def read_conf_gap(m: Metric, cfg: RoundConfig) -> str:
+    if not m.estimable or m.value is None:
+        return not_estimable(m)
+    unit = _scale_unit(cfg)
+    gap = m.value
+    if abs(gap) < 0.05:
+        text = "when you were wrong you were about as confident as when you were right"
+    elif gap > 0:
+        text = (f"when you were wrong you were on average {fmt_number(gap, 1)} {unit} less "
+                "confident than when you were right")
+    else:
+        text = (f"when you were wrong you were on average {fmt_number(-gap, 1)} {unit} more "
+                "confident than when you were right")
+    return text[0].upper() + text[1:] + "." + _caution(m)
+
+
+def read_type2_auroc(m: Metric) -> str:
+    if not m.estimable:
+        return not_estimable(m)
+    return (f"Picking one of your right and one of your wrong answers at random, the right one "
+            f"carried the higher confidence {fmt_percent(m.value, 0)} of the time (50\u00a0% means "
+            "confidence did not separate them)." + _caution(m))
+
+
+def read_gamma(m: Metric) -> str:
+    if not m.estimable:
+        return not_estimable(m)
+    return (f"Association between your confidence and being right: {fmt_number(m.value)} on a "
+            "scale from \u22121 to +1, where 0 means none." + _caution(m))
+
+
+def read_m_ratio(m: Metric) -> str:
+    if not m.estimable or m.value is None:
+        return not_estimable(m)
+    return (f"Your confidence carried about {fmt_percent(m.value, 0)} of the information your "
+            "decisions contained (100\u00a0% is what an ideal observer with your d\u2032 would "
+            "show)." + _caution(m))
+
+
+def read_relative_insight(observed: Metric, expected: Metric) -> str:
+    """Compare the type-2 ROC area with that of an ideal observer with the same d′."""
+    if not observed.estimable or not expected.estimable or expected.value is None:
+        return ""
+    lo, hi = observed.low, observed.high
+    if _finite(lo) and _finite(hi) and lo is not None and hi is not None:
+        if expected.value < lo:
+            verdict = "more than"
+        elif expected.value > hi:
+            verdict = "less than"
+        else:
+            verdict = "about as much as"
+    else:
+        verdict = "compared with"
+    return (f"An ideal observer as accurate as you would reach a type-2 area of about "
+            f"{fmt_number(expected.value)}; your confidence separated right from wrong "
+            f"{verdict} your accuracy would allow.")
+
+
+def read_overconfidence(m: Metric, cfg: RoundConfig) -> str:
+    if not m.estimable or m.value is None:
+        return not_estimable(m)
+    points = fmt_number(abs(100 * m.value), 1)
+    if abs(m.value) < 0.005:
+        text = "Your stated confidence matched your share of right answers"
+    elif m.value > 0:
+        text = (f"Your confidence was on average {points} percentage points above your share of "
+                "right answers: overconfident")
+    else:
+        text = (f"Your confidence was on average {points} percentage points below your share of "
+                "right answers: underconfident")
+    return text + _probability_convention(cfg) + "." + _caution(m)
+
+
+def _probability_convention(cfg: RoundConfig) -> str:
+    scale = cfg.confidence
+    if scale.kind == "probability":
+        return ""
+    return (f" (confidence read as probability by the convention {scale.min:g} \u2192 "
+            f"{fmt_percent(scale.map_low, 0)} \u2026 {scale.max:g} \u2192 100\u00a0%)")
+
+
+def read_brier(m: Metric) -> str:
+    if not m.estimable:
+        return not_estimable(m)
+    return (f"Brier score {fmt_number(m.value, 3)}: the mean squared gap between stated "
+            "probability and outcome (0 is perfect; lower is better).")
+
+
+def read_ece(m: Metric) -> str:
+    if not m.estimable or m.value is None:
+        return not_estimable(m)
+    return (f"At each confidence level, your share of right answers differed from the stated "
+            f"probability by {fmt_number(100 * m.value, 1)} percentage points on average.")
+
+
+def readings(p: ParticipantResult, cfg: RoundConfig) -> dict[str, str]:
+    """One plain-language line for every metric the certificate shows."""
+    c, m = p.counts, p.metrics
+    out = {
+        "accuracy": read_accuracy(c, m["accuracy"]),
+        "error_rate": read_error_rate(c, m["error_rate"]),
+        "decisive_accuracy": read_decisive_accuracy(c, m["decisive_accuracy"]),
+        "false_positive_rate": read_false_positive_rate(c, m["false_positive_rate"], cfg),
+        "false_negative_rate": read_false_negative_rate(c, m["false_negative_rate"], cfg),
+        "inconclusive_rate": read_inconclusive_rate(c, m["inconclusive_rate"], cfg),
+        "d_prime": read_d_prime(m["d_prime"]),
+        "criterion": read_criterion(m["criterion"], cfg),
+        "auc": read_auc(m["auc"], cfg),
+        "conf_gap": read_conf_gap(m["conf_gap"], cfg),
+        "type2_auroc": read_type2_auroc(m["type2_auroc"]),
+        "gamma": read_gamma(m["gamma"]),
+        "m_ratio": read_m_ratio(m["m_ratio"]),
+    }
+    if "expected_type2_auroc" in m:
+        out["relative_insight"] = read_relative_insight(m["type2_auroc"],
+                                                        m["expected_type2_auroc"])
+    if "overconfidence" in m:
+        out["overconfidence"] = read_overconfidence(m["overconfidence"], cfg)
+        out["brier"] = read_brier(m["brier"])
+        out["ece"] = read_ece(m["ece"])
+    return out

@@ -1,0 +1,85 @@
+"""reportgen.render.wording: number formats and plain-language readings."""
+
+from __future__ import annotations
+
+import datetime as dt
+
+import pytest
+
+from reportgen.render import wording
+from reportgen.results import Metric, RoundResults
+
+from .render_fixtures import round_config
+
+
+@pytest.mark.parametrize(("x", "digits", "expected"), [
+    (1.2345, 2, "1.23"),
+    (-0.5, 2, "\u22120.50"),
+    (-0.001, 2, "0.00"),  # rounds to zero: no sign
+    (None, 2, "\u2014"),
+    (float("nan"), 2, "\u2014"),
+    (3.0, 0, "3"),
+])
+def test_fmt_number(x: float | None, digits: int, expected: str) -> None:
+    assert wording.fmt_number(x, digits) == expected
+
+
+def test_fmt_percent_and_interval() -> None:
+    assert wording.fmt_percent(0.85) == "85.0\u00a0%"
+    assert wording.fmt_percent(1.0, 0) == "100\u00a0%"
+    m = Metric(0.85, 0.64, 0.948)
+    assert wording.fmt_interval(m, "percent") == "64.0\u201394.8\u00a0%"
+    assert wording.fmt_interval(Metric(1.5, -0.25, 3.0)) == "\u22120.25 to 3.00"
+    assert wording.fmt_interval(Metric(1.5)) == "\u2014"
+
+
+def test_fmt_signed() -> None:
+    assert wording.fmt_signed(0.25) == "+0.25"
+    assert wording.fmt_signed(-0.25) == "\u22120.25"
+    assert wording.fmt_signed(0.0001) == "0.00"
+
+
+def test_dates_do_not_depend_on_the_locale() -> None:
+    assert wording.fmt_date(dt.date(2026, 5, 15)) == "15 May 2026"
+    assert wording.fmt_date(dt.date(2026, 1, 2)) == "2 January 2026"
+
+
+def test_conf_gap_reading_states_direction_and_size() -> None:
+    cfg = round_config()
+    text = wording.read_conf_gap(Metric(1.2, 0.4, 2.0), cfg)
+    assert text == ("When you were wrong you were on average 1.2 points on the 1\u20135 scale less "
+                    "confident than when you were right.")
+    assert "more confident" in wording.read_conf_gap(Metric(-0.7), cfg)
+    assert "about as confident" in wording.read_conf_gap(Metric(0.01), cfg)
+
+
+def test_not_estimable_and_caution_notes_are_shown() -> None:
+    cfg = round_config()
+    assert wording.read_conf_gap(Metric(None, note="no errors"), cfg) == (
+        "Not estimable for you in this round (no errors).")
+    assert wording.read_type2_auroc(Metric(0.7, 0.5, 0.9, "few errors: unstable")).endswith(
+        "Caution: few errors: unstable.")
+
+
+def test_overconfidence_reading_names_the_convention() -> None:
+    text = wording.read_overconfidence(Metric(0.062), round_config())
+    assert "6.2 percentage points above" in text
+    assert "overconfident" in text
+    assert "1 \u2192 50\u00a0%" in text
+    assert "underconfident" in wording.read_overconfidence(Metric(-0.1), round_config())
+
+
+def test_relative_insight_compares_with_the_ideal_observer() -> None:
+    below = wording.read_relative_insight(Metric(0.6, 0.5, 0.7), Metric(0.8))
+    assert "less than" in below
+    within = wording.read_relative_insight(Metric(0.75, 0.6, 0.9), Metric(0.8))
+    assert "about as much as" in within
+    assert wording.read_relative_insight(Metric(None, note="no errors"), Metric(0.8)) == ""
+
+
+def test_every_reading_is_one_line(results: RoundResults) -> None:
+    cfg = results.round.config
+    for p in results.participants:
+        for name, text in wording.readings(p, cfg).items():
+            assert "\n" not in text, name
+            assert text == "" or text.endswith("."), (name, text)
