@@ -77,9 +77,25 @@ def _parser() -> argparse.ArgumentParser:
     p = sub.add_parser("score", help="write results.json, results.xlsx and manifest.json")
     p.add_argument("round", type=Path)
     common(p)
-    p = sub.add_parser("issue", help="score, then render certificates and the group appendix")
+    p = sub.add_parser("issue", help="score, render certificates and the group appendix, and "
+                       "record the round in the archive")
     p.add_argument("round", type=Path)
     common(p)
+    p.add_argument("--archive", type=Path, help="archive file (default: [archive] path of the "
+                   "settings, inside OUT)")
+    p.add_argument("--replace", action="store_true",
+                   help="record corrected inputs of an archived round as a new version")
+    p = sub.add_parser("record", help="score a round and store it in the archive only")
+    p.add_argument("round", type=Path)
+    p.add_argument("--archive", type=Path, required=True)
+    p.add_argument("--replace", action="store_true")
+    p.add_argument("--config", type=Path, help="provider settings file (TOML)")
+    p = sub.add_parser("trend", help="one examiner's rounds from the archive: trend report")
+    p.add_argument("participant")
+    p.add_argument("--archive", type=Path, required=True)
+    p.add_argument("-o", "--out", type=Path, required=True, help="output folder")
+    p.add_argument("--last", type=int, help="pool insight over the last N rounds only")
+    p.add_argument("--config", type=Path, help="provider settings file (TOML)")
     p = sub.add_parser("verify", help="check an output folder against its manifest")
     p.add_argument("out", type=Path)
     p = sub.add_parser("demo", help="run the newest sample round end to end")
@@ -103,6 +119,15 @@ def _run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
         return EXIT_DIFFERS
 
     settings = load_settings(args.config)
+    if args.command == "record":
+        outcome = pipeline.record(args.round, args.archive, settings, replace=args.replace)
+        out.write(f"{args.round}: {outcome} in {args.archive}\n")
+        return EXIT_OK
+    if args.command == "trend":
+        summary = pipeline.trend(args.participant, args.archive, args.out, settings,
+                                 last_n=args.last)
+        out.write(f"wrote the trend report of {args.participant} to {summary.out}\n")
+        return EXIT_OK
     progress = ProgressBar(err, args.quiet)
     if args.command == "check":
         rnd = pipeline.load(args.round)
@@ -117,10 +142,9 @@ def _run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
         summary = pipeline.score(args.round, args.out, settings, progress)
     elif args.command == "issue":
         summary = pipeline.issue(args.round, args.out, settings, jobs=args.jobs,
-                                 progress=progress)
+                                 progress=progress, archive=args.archive, replace=args.replace)
     else:  # demo
-        summary = pipeline.issue(pipeline.newest_sample_round(), args.out, settings,
-                                 jobs=args.jobs, progress=progress)
+        summary = pipeline.demo(args.out, settings, jobs=args.jobs, progress=progress)
     _print_problems(summary.warnings, err)
     out.write(f"wrote {len(summary.files)} files for {summary.n_participants} participants "
               f"to {summary.out}\n")
