@@ -8,19 +8,27 @@ caller writes them. Output names are made safe from participant codes by :func:`
 This module imports the renderers lazily and hands the round to workers as pickled bytes: a
 spawned worker then reads its start-up data at once, instead of keeping the parent blocked on the
 pipe while it imports WeasyPrint, Altair and SciPy.
+
+Workers run under :class:`concurrent.futures.ProcessPoolExecutor`, not ``multiprocessing.Pool``:
+when a worker dies outright (killed, out of memory, a crash in a C library) the executor marks
+the pool broken and every pending result raises ``BrokenProcessPool``, which becomes a
+:class:`BuildError`; a ``Pool`` would silently replace the worker and wait for its lost task
+forever.
 """
 
 from __future__ import annotations
 
 import hashlib
+import itertools
 import multiprocessing
 import pickle
 import re
 import unicodedata
 from collections import deque
 from collections.abc import Callable, Iterable, Iterator, Mapping, Sequence
+from concurrent.futures import FIRST_COMPLETED, Future, ProcessPoolExecutor, wait
+from concurrent.futures.process import BrokenProcessPool
 from dataclasses import dataclass
-from multiprocessing.pool import AsyncResult
 from typing import TYPE_CHECKING
 
 from reportgen.errors import BuildError
@@ -183,20 +191,38 @@ def _serial(job: _Job, order: Sequence[int]) -> Iterator[Rendered]:
 
 
 def _parallel(job: _Job, order: Sequence[int], workers: int) -> Iterator[Rendered]:
-    """Feed ``workers`` spawned processes a few tasks ahead; render here between harvests."""
+    """Feed ``workers`` spawned processes a few tasks ahead; render here between harvests.
+
+    A worker that dies outright breaks the pool: the remaining tasks are cancelled and
+    :class:`BuildError` is raised instead of waiting for a result that will never come.
+    """
     todo = deque(order)
     window = 3 * workers
     payload = pickle.dumps(job, protocol=pickle.HIGHEST_PROTOCOL)
-    with multiprocessing.get_context("spawn").Pool(workers, initializer=_init_worker,
-                                                   initargs=(payload,)) as pool:
-        inflight: deque[AsyncResult[Rendered]] = deque()
+    pool = ProcessPoolExecutor(workers, mp_context=multiprocessing.get_context("spawn"),
+                               initializer=_init_worker, initargs=(payload,))
+    inflight: dict[Future[Rendered], int] = {}  # future -> submission number
+    submitted = itertools.count()
+    try:
         while todo or inflight:
-            for ready in [r for r in inflight if r.ready()]:
-                inflight.remove(ready)
-                yield ready.get()
+            for future in sorted((f for f in inflight if f.done()), key=inflight.__getitem__):
+                del inflight[future]
+                yield _result(future)
             while todo and len(inflight) < window:
-                inflight.append(pool.apply_async(_work, (todo.popleft(),)))
+                inflight[pool.submit(_work, todo.popleft())] = next(submitted)
             if todo:
                 yield _render_one(job, todo.pop())  # this process takes from the far end
             elif inflight:
-                inflight[0].wait(timeout=1.0)
+                wait(inflight, timeout=1.0, return_when=FIRST_COMPLETED)
+    finally:
+        pool.shutdown(wait=True, cancel_futures=True)
+
+
+def _result(future: Future[Rendered]) -> Rendered:
+    try:
+        return future.result()
+    except BrokenProcessPool as exc:
+        raise BuildError(
+            "a document-rendering worker process stopped unexpectedly (killed, out of memory "
+            "or crashed in a library), so the documents cannot be completed; run again with "
+            f"--jobs 1 to render in one process and see the underlying error ({exc})") from exc

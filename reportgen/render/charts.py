@@ -228,18 +228,19 @@ def confidence_right_wrong(own: Sequence[LevelRow], group: Sequence[LevelRow]
     return chart
 
 
-def position_in_group(values: Sequence[float], own: float | None, *, accent: str
-                      ) -> alt.TopLevelMixin:
+def position_in_group(values: Sequence[float], own: float | None, *, accent: str,
+                      width: int = 590, height: int = 110) -> alt.TopLevelMixin:
     """The group's accuracy distribution (counts in 5-point bins) with a rule at yours."""
     bars = alt.Chart(_data(histogram(values, 0.0, 1.0, 20))).mark_bar(
         color=GREY, binSpacing=1).encode(
         x=alt.X("start:Q", bin="binned", title="Accuracy",
-                scale=alt.Scale(domain=[0, 1]), axis=alt.Axis(format=".0%", tickCount=10)),
+                scale=alt.Scale(domain=[0, 1]),
+                axis=alt.Axis(format=".0%", tickCount=10 if width >= 400 else 5)),
         x2="end:Q",
         y=alt.Y("count:Q", title="Participants", axis=alt.Axis(tickMinStep=1)),
     )
     if own is None:
-        alone: alt.TopLevelMixin = bars.properties(width=590, height=110)
+        alone: alt.TopLevelMixin = bars.properties(width=width, height=height)
         return alone
     marker = _data([{"x": own, "label": YOU}])
     rule = alt.Chart(marker).mark_rule(color=accent, strokeWidth=2.5).encode(x="x:Q")
@@ -248,7 +249,7 @@ def position_in_group(values: Sequence[float], own: float | None, *, accent: str
                                        dx=-4 if right_edge else 4, dy=-4, baseline="top",
                                        fontWeight="bold", fontSize=11).encode(
         x="x:Q", y=alt.value(0), text="label:N")
-    return alt.layer(bars, rule, text).properties(width=590, height=110)
+    return alt.layer(bars, rule, text).properties(width=width, height=height)
 
 
 # ---------------------------------------------------------------------------------------------
@@ -307,3 +308,175 @@ def item_map(rows: Sequence[Mapping[str, Any]], *, accent: str) -> alt.TopLevelM
                                                     range=["diamond", "circle"]), legend=None),
     ).properties(width=280, height=170)
     return chart
+
+
+# ---------------------------------------------------------------------------------------------
+# Group views: self-estimates by quartile, insight against ability, type-2 area against d′
+
+SCORE_SERIES = ("Mean score", "Regression expectation")
+NULL_BAND = "Shuffled estimates, 95\u00a0%"
+BAND_COLOUR = "#dfe2e5"
+
+
+def _padded_domain(values: Sequence[float], lo: float, hi: float, step: float
+                   ) -> tuple[float, float]:
+    """[floor, ceil] of ``values`` to multiples of ``step``, kept within [lo, hi]."""
+    finite = [v for v in values if np.isfinite(v)]
+    if not finite:
+        return lo, hi
+    low = max(lo, float(np.floor(min(finite) / step + 1e-9) * step))
+    high = min(hi, float(np.ceil(max(finite) / step - 1e-9) * step))
+    return (low, high) if high > low else (lo, hi)
+
+
+def self_estimate_quartiles(rows: Sequence[Mapping[str, Any]], *,
+                            y_title: str = "Share right / estimate",
+                            estimate_label: str = "Mean estimate") -> alt.TopLevelMixin:
+    """Per quarter of score: mean score, mean estimate, the regression expectation (dashed) and
+    the band of mean estimates under shuffled estimates (grey).
+
+    ``rows``: ``quarter`` (axis label), ``score``, ``estimate``, ``fitted``, ``null_low``,
+    ``null_high`` as proportions; quarters without participants are left out by the caller.
+    """
+    order = [str(r["quarter"]) for r in rows]
+    values = [float(r[k]) for r in rows
+              for k in ("score", "estimate", "fitted", "null_low", "null_high")
+              if r.get(k) is not None]
+    y_domain = _padded_domain(values, 0.0, 1.0, 0.1)
+    x = alt.X("quarter:N", sort=order, title="Quarter of the group by actual score",
+              axis=alt.Axis(labelAngle=0), scale=alt.Scale(padding=0.3))
+    y_axis = alt.Axis(format=".0%", tickCount=6)
+    lines_named = (estimate_label, *SCORE_SERIES)
+    series = [*lines_named, NULL_BAND]
+    colour = alt.Color("series:N", scale=alt.Scale(domain=series,
+                                                   range=[RIGHT_COLOUR, DARK, GREY, BAND_COLOUR]),
+                       legend=alt.Legend(title=None, orient="top", columns=2, symbolType="stroke",
+                                         symbolStrokeWidth=3, symbolSize=250))
+    band_rows = [{**r, "series": NULL_BAND} for r in rows
+                 if r.get("null_low") is not None and r.get("null_high") is not None]
+    band = alt.Chart(_data(band_rows)).mark_area(opacity=1).encode(
+        x=x, y=alt.Y("null_low:Q", title=y_title, scale=alt.Scale(
+            domain=list(y_domain)), axis=y_axis), y2="null_high:Q", color=colour)
+    long_rows = [{"quarter": r["quarter"], "series": name, "value": r[key]}
+                 for r in rows
+                 for name, key in zip(lines_named, ("estimate", "score", "fitted"),
+                                      strict=True)
+                 if r.get(key) is not None]
+    dash = alt.StrokeDash("series:N", scale=alt.Scale(domain=series,
+                                                      range=[[1, 0], [1, 0], [4, 2], [1, 0]]),
+                          legend=None)
+    lines = alt.Chart(_data(long_rows)).mark_line(strokeWidth=2).encode(
+        x=x, y=alt.Y("value:Q"), color=colour, strokeDash=dash)
+    points = alt.Chart(_data([r for r in long_rows if r["series"] != SCORE_SERIES[1]])
+                       ).mark_point(filled=True, size=45, opacity=1).encode(
+        x=x, y=alt.Y("value:Q"), color=colour)
+    chart: alt.TopLevelMixin = alt.layer(band, lines, points).properties(width=270, height=190)
+    return chart
+
+
+def insight_by_ability(rows: Sequence[Mapping[str, Any]], *, scale: tuple[float, float]
+                       ) -> alt.TopLevelMixin:
+    """Mean confidence when right and when wrong per accuracy group, with 95 % intervals.
+
+    ``rows``: ``group`` (axis label), ``kind`` ("right"/"wrong"), ``mean``, ``low``, ``high``.
+    """
+    order = list(dict.fromkeys(str(r["group"]) for r in rows))
+    x = alt.X("group:N", sort=order, title="Accuracy group (range of accuracy)",
+              axis=alt.Axis(labelAngle=0))
+    colour = alt.Color("kind:N", scale=alt.Scale(domain=["right", "wrong"],
+                                                 range=[RIGHT_COLOUR, WRONG_COLOUR]),
+                       legend=alt.Legend(title=None, labelExpr="'when ' + datum.label"))
+    y = alt.Y("mean:Q", title="Mean confidence", scale=alt.Scale(domain=list(scale)),
+              axis=alt.Axis(tickCount=5))
+    base = alt.Chart(_data(rows)).encode(x=x, xOffset=alt.XOffset("kind:N",
+                                                                   sort=["right", "wrong"]),
+                                         color=colour)
+    chart: alt.TopLevelMixin = alt.layer(
+        base.mark_rule(strokeWidth=1.5).encode(y=alt.Y("low:Q", scale=alt.Scale(
+            domain=list(scale))), y2="high:Q"),
+        base.mark_point(filled=True, size=50, opacity=1).encode(y=y),
+    ).properties(width=280, height=180)
+    return chart
+
+
+def insight_against_dprime(points: Sequence[Mapping[str, Any]],
+                           curve: Sequence[Mapping[str, float]], *, accent: str,
+                           few_errors: int, own: Mapping[str, float | None] | None = None
+                           ) -> alt.TopLevelMixin:
+    """Each participant's type-2 ROC area against d′ (anonymous grey points; open when resting on
+    fewer than ``few_errors`` errors) with the ideal-observer curve, and optionally one
+    participant highlighted.
+
+    ``points``: ``d_prime``, ``type2_auroc`` and ``few`` (bool) and nothing else: no code, no
+    name. ``curve``: ``d_prime``, ``type2_auroc``. ``own``: ``d_prime``, ``type2_auroc``,
+    ``low``, ``high`` (its interval) and ``expected`` (the ideal observer's value for that
+    participant), any of which may be None.
+    """
+    enough, few = f"{few_errors} or more errors", f"fewer than {few_errors} errors: unstable"
+    rows = [{"d_prime": p["d_prime"], "type2_auroc": p["type2_auroc"],
+             "errors": few if p["few"] else enough} for p in points]
+    xs = [p["d_prime"] for p in rows] + [c["d_prime"] for c in curve] + [0.0]
+    ys = [p["type2_auroc"] for p in rows] + [c["type2_auroc"] for c in curve] + [0.5]
+    own_values = {k: v for k, v in (own or {}).items() if v is not None}
+    if not {"d_prime", "type2_auroc"} <= set(own_values):
+        own_values = {}  # no point to draw
+    xs += [v for k, v in own_values.items() if k == "d_prime"]
+    ys += [v for k, v in own_values.items() if k != "d_prime"]
+    x_domain = _padded_domain(xs, -2.0, 6.0, 0.5)
+    x = alt.X("d_prime:Q", title="Discriminability d\u2032",
+              scale=alt.Scale(domain=list(x_domain), nice=False),
+              axis=alt.Axis(values=_ticks(*x_domain), format=".1f"))
+    y_scale = alt.Scale(domain=list(_padded_domain(ys, 0.0, 1.0, 0.1)), nice=False)
+    y = alt.Y("type2_auroc:Q", title="Type-2 ROC area", scale=y_scale,
+              axis=alt.Axis(tickCount=6))
+    point_colour = LIGHT if own_values else GREY
+    layers: list[alt.Chart] = [
+        alt.Chart(_data([{"chance": 0.5}])).mark_rule(
+            color=LIGHT, strokeDash=[2, 2], strokeWidth=1).encode(
+            y=alt.Y("chance:Q", scale=y_scale)),
+    ]
+    if rows:
+        layers.append(alt.Chart(_data(rows)).mark_point(size=28, strokeWidth=1, opacity=1,
+                                                        clip=True).encode(
+            x=x, y=y, color=alt.value(point_colour),
+            fill=alt.Fill("errors:N", scale=alt.Scale(domain=[enough, few],
+                                                      range=[point_colour, "white"]),
+                          legend=alt.Legend(title=None, symbolStrokeColor=point_colour,
+                                            symbolStrokeWidth=1))))
+    layers.append(alt.Chart(_data(curve)).mark_line(color=DARK, strokeWidth=1.8).encode(
+        x=x, y=y))
+    if curve:
+        end = max(curve, key=lambda c: c["d_prime"])
+        layers.append(alt.Chart(_data([{**end, "label": "ideal observer"}])).mark_text(
+            color=DARK, align="right", dy=-9, fontSize=9).encode(x=x, y=y, text="label:N"))
+    if own_values:
+        layers += _own_marks(own_values, x, y, accent)
+    chart: alt.TopLevelMixin = alt.layer(*layers).properties(width=290, height=180)
+    return chart
+
+
+def _ticks(lo: float, hi: float) -> list[float]:
+    """Axis values every 0.5 on a short axis, every 1 on a longer one (labels must not clash)."""
+    step = 0.5 if hi - lo <= 4.0 else 1.0
+    first = float(np.ceil(lo / step - 1e-9))
+    return [(first + i) * step for i in range(int((hi - first * step) / step + 1e-9) + 1)]
+
+
+def _own_marks(own: Mapping[str, float], x: alt.X, y: alt.Y, accent: str) -> list[alt.Chart]:
+    """The highlighted participant: 95 % interval, the ideal observer's value for them (a dark
+    tick) and their point, labelled."""
+    row = _data([{**own, "label": YOU}])
+    marks: list[alt.Chart] = []
+    if "low" in own and "high" in own:
+        marks.append(alt.Chart(row).mark_rule(color=accent, strokeWidth=1.5).encode(
+            x=x, y=alt.Y("low:Q"), y2="high:Q"))
+    if "expected" in own:
+        marks.append(alt.Chart(row).mark_tick(color=DARK, orient="horizontal", thickness=2,
+                                              size=16).encode(x=x, y=alt.Y("expected:Q")))
+    marks.append(alt.Chart(row).mark_point(filled=True, color=accent, size=70, opacity=1,
+                                           stroke="white", strokeWidth=0.8).encode(x=x, y=y))
+    # Right of the point: the interval and the tick run vertically through it.
+    marks.append(alt.Chart(row).mark_text(color=accent, align="left", dx=7, fontWeight="bold",
+                                          fontSize=11, baseline="middle").encode(
+        x=x, y=y, text="label:N"))
+    return marks

@@ -23,9 +23,10 @@ import numpy as np
 
 from reportgen import __version__
 from reportgen.errors import BuildError, InputError
+from reportgen.metrics.selfestimate import AbilityGroup, MeanInterval, QuartileRow
 from reportgen.render import charts, wording
 from reportgen.render.environment import environment
-from reportgen.results import Metric, ParticipantResult, RoundResults
+from reportgen.results import Metric, ParticipantResult, RoundResults, SelfEstimateView
 from reportgen.rounds.model import ABSTAINED, MISSING, SAID_NEGATIVE, SAID_POSITIVE
 from reportgen.rounds.schema import Criterion, RoundConfig
 from reportgen.settings import Settings
@@ -40,7 +41,7 @@ SECTIONS: tuple[tuple[str, tuple[str, ...]], ...] = (
                    "false_negative_rate", "inconclusive_rate")),
     ("Discrimination", ("d_prime", "criterion", "auc")),
     ("Insight: does your confidence tell right from wrong?",
-     ("conf_gap", "type2_auroc", "gamma", "m_ratio")),
+     ("conf_gap", "type2_auroc", "gamma", "meta_d", "m_ratio")),
     ("Calibration: does your confidence match how often you are right?",
      ("overconfidence", "brier", "ece")),
 )
@@ -53,7 +54,7 @@ COUNT_METRICS = frozenset({
 APPENDIX_METRICS: tuple[str, ...] = (
     "accuracy", "error_rate", "false_positive_rate", "false_negative_rate", "inconclusive_rate",
     "decisive_accuracy", "d_prime", "criterion", "auc", "conf_gap", "type2_auroc", "gamma",
-    "m_ratio", "overconfidence", "brier", "ece",
+    "meta_d", "m_ratio", "overconfidence", "brier", "ece",
 )
 
 
@@ -201,7 +202,8 @@ def _render(template: str, context: dict[str, Any], settings: Settings) -> str:
 
 def _metric_rows(p: ParticipantResult, results: RoundResults, readings: Mapping[str, str]
                  ) -> list[dict[str, Any]]:
-    """Sections of (label, value, interval, group median, reading, caution) rows."""
+    """Sections of (label, value, interval, group median, reading, caution) rows, each with an
+    optional note shown under its rows."""
     dists = results.group.distributions
     sections = []
     for title, names in SECTIONS:
@@ -225,7 +227,9 @@ def _metric_rows(p: ParticipantResult, results: RoundResults, readings: Mapping[
                 "estimable": m.estimable,
             })
         if rows:
-            sections.append({"title": title, "rows": rows})
+            # The relative-insight sentence sits with the insight rows it explains.
+            note = readings.get("relative_insight", "") if "type2_auroc" in names else ""
+            sections.append({"title": title, "rows": rows, "note": note})
     return sections
 
 
@@ -331,13 +335,49 @@ def _certificate_charts(results: RoundResults, p: ParticipantResult, accuracies:
     """The three certificate charts; the group distribution is withheld in small groups."""
     group = results.group.levels
     method = results.round.config.scoring.interval
+    m = p.metrics
+    own = {"d_prime": m["d_prime"].value, "type2_auroc": m["type2_auroc"].value,
+           "low": m["type2_auroc"].low, "high": m["type2_auroc"].high,
+           "expected": _value(m.get("expected_type2_auroc"))}
     return {
         "by_level": charts.image(charts.accuracy_by_confidence(
             p.levels, group, accent=ctx["accent"], method=method, calibrated=ctx["calibrated"])),
         "right_wrong": charts.image(charts.confidence_right_wrong(p.levels, group)),
         "position": None if ctx["small_group"] else charts.image(charts.position_in_group(
-            accuracies, p.metrics["accuracy"].value, accent=ctx["accent"])),
+            accuracies, p.metrics["accuracy"].value, accent=ctx["accent"], width=255,
+            height=185)),
+        "insight": _insight_chart(results, ctx, own=own, exclude=p.code),
     }
+
+
+def _value(m: Metric | None) -> float | None:
+    return m.value if m is not None else None
+
+
+def insight_points(results: RoundResults, exclude: str | None = None) -> list[dict[str, Any]]:
+    """Anonymous (d′, type-2 area, few-errors flag) points, sorted by value so that their order
+    says nothing about codes; ``exclude`` leaves one participant out (drawn highlighted)."""
+    points = []
+    for p in results.participants:
+        d, a = p.metrics.get("d_prime"), p.metrics.get("type2_auroc")
+        if p.code == exclude or d is None or a is None or d.value is None or a.value is None:
+            continue
+        points.append({"d_prime": d.value, "type2_auroc": a.value, "few": a.note is not None})
+    return sorted(points, key=lambda r: (r["d_prime"], r["type2_auroc"], r["few"]))
+
+
+def _insight_chart(results: RoundResults, ctx: Mapping[str, Any], *,
+                   own: Mapping[str, float | None] | None = None,
+                   exclude: str | None = None) -> charts.Image | None:
+    """Type-2 area against d′ with the ideal curve; the group's points are withheld in small
+    groups (each point is one participant)."""
+    points = [] if ctx["small_group"] else insight_points(results, exclude)
+    curve = [{"d_prime": c.d_prime, "type2_auroc": c.type2_auroc}
+             for c in results.group.ideal_curve]
+    if not points and not curve and not (own and own.get("type2_auroc") is not None):
+        return None
+    return charts.image(charts.insight_against_dprime(
+        points, curve, accent=ctx["accent"], few_errors=ctx["few_errors"], own=own))
 
 
 def certificate_context(results: RoundResults, participant: ParticipantResult,
@@ -364,12 +404,18 @@ def certificate_context(results: RoundResults, participant: ParticipantResult,
         "summary": _summary_tiles(participant),
         "sections": _metric_rows(participant, results, readings),
         "relative_insight": readings.get("relative_insight", ""),
+        "own_insight": {
+            "estimable": participant.metrics["type2_auroc"].estimable
+            and participant.metrics["d_prime"].estimable,
+            "note": participant.metrics["type2_auroc"].note or "",
+        },
         "answer_table": _answer_table(results, participant.row),
         "item_pairs": _two_columns(_item_rows(results, participant.row, settings)),
         "charts": _certificate_charts(results, participant, accuracies, ctx),
         "position_sentence": "" if ctx["small_group"] else _position_sentence(
             accuracies, participant.metrics["accuracy"].value),
         "previous_rounds": tuple(previous_rounds or ()),
+        "group_methods": False,
     })
     return ctx
 
@@ -480,6 +526,113 @@ def _values(results: RoundResults, name: str) -> list[float]:
             if name in p.metrics and (v := p.metrics[name].value) is not None]
 
 
+# ---------------------------------------------------------------------------------------------
+# Appendix group views (DESIGN §3): self-estimates by quartile, insight against ability
+
+QUARTERS = {1: "1 (weakest)", 2: "2", 3: "3", 4: "4 (strongest)"}
+
+
+def _points(x: float | None) -> str:
+    """A difference of proportions in percentage points: ``+6.2 points``."""
+    return wording.DASH if x is None else f"{wording.fmt_signed(100 * x, 1)} points"
+
+
+def _band_position(r: QuartileRow) -> str:
+    if r.inside_null is None or r.mean_estimate is None or r.null_high is None:
+        return wording.DASH
+    if r.inside_null:
+        return "inside"
+    return "above" if r.mean_estimate > r.null_high else "below"
+
+
+def _quartile_rows(rows: Sequence[QuartileRow]) -> list[dict[str, Any]]:
+    return [{
+        "quarter": QUARTERS.get(r.quartile, str(r.quartile)), "n": r.n,
+        "score": wording.fmt_percent(r.mean_score),
+        "estimate": wording.fmt_percent(r.mean_estimate),
+        "gap": _points(r.gap), "fitted": wording.fmt_percent(r.fitted),
+        "band": wording.fmt_interval(Metric(r.mean_estimate, r.null_low, r.null_high), "percent"),
+        "position": _band_position(r),
+    } for r in rows]
+
+
+def _self_estimates(view: SelfEstimateView | None) -> dict[str, Any] | None:
+    if view is None:
+        return None
+    v, g = view.view, view.view.glejser
+    chart_rows = [{"quarter": QUARTERS.get(r.quartile, str(r.quartile)), "score": r.mean_score,
+                   "estimate": r.mean_estimate, "fitted": r.fitted, "null_low": r.null_low,
+                   "null_high": r.null_high} for r in v.rows if r.n > 0]
+    y_title = ("Share right / own estimate" if view.source == "estimates file"
+               else "Share right / mean confidence")
+    return {
+        "from_file": view.source == "estimates file",
+        "score_label": wording.LABELS.get(view.score_name, view.score_name).split(" (")[0],
+        "n": v.n, "n_perm": v.n_perm, "reading": view.reading,
+        "rows": _quartile_rows(v.rows),
+        "glejser": None if g is None else {
+            "n": g.n, "estimate_slope": wording.fmt_number(g.estimate_slope),
+            "slope": wording.fmt_signed(g.slope, 3), "p": wording.fmt_p(g.slope_p),
+            "quadratic_p": wording.fmt_p(g.quadratic_p)},
+        "chart": charts.image(charts.self_estimate_quartiles(
+            chart_rows, y_title=y_title,
+            estimate_label="Mean estimate" if view.source == "estimates file"
+            else "Mean confidence")),
+    }
+
+
+def _mean_text(mi: MeanInterval, digits: int) -> str:
+    if mi.mean is None:
+        return wording.DASH
+    text = wording.fmt_number(mi.mean, digits)
+    if mi.low is not None and mi.high is not None:
+        text += (f" ({wording.fmt_number(mi.low, digits)}\u2013"
+                 f"{wording.fmt_number(mi.high, digits)})")
+    return text
+
+
+def _accuracy_range(a: AbilityGroup) -> str:
+    lo, hi = wording.fmt_percent(a.accuracy_min, 0), wording.fmt_percent(a.accuracy_max, 0)
+    return lo if lo == hi else f"{lo.split(wording.NBSP)[0]}\u2013{hi}"
+
+
+def _ability(results: RoundResults) -> dict[str, Any] | None:
+    groups = [a for a in results.group.ability_groups if a.n > 0]
+    if not groups:
+        return None
+    scale = results.round.config.confidence
+    digits = 2 if scale.kind == "ordinal" else 1
+    chart_rows = [{"group": _accuracy_range(a), "kind": kind, "mean": mi.mean, "low": mi.low,
+                   "high": mi.high}
+                  for a in groups
+                  for kind, mi in (("right", a.conf_correct), ("wrong", a.conf_wrong))
+                  if mi.mean is not None]
+    return {
+        "rows": [{"group": a.group, "range": _accuracy_range(a), "n": a.n,
+                  "no_errors": a.n - a.conf_wrong.n,
+                  "right": _mean_text(a.conf_correct, digits),
+                  "wrong": _mean_text(a.conf_wrong, digits),
+                  "gap": _mean_text(a.conf_gap, digits)} for a in groups],
+        "chart": charts.image(charts.insight_by_ability(chart_rows,
+                                                        scale=(scale.min, scale.max))),
+    }
+
+
+def _group_views(results: RoundResults, ctx: Mapping[str, Any]) -> dict[str, Any]:
+    """The appendix's group views; accuracy groups and individual points are withheld in small
+    groups, where they could single a participant out."""
+    g = results.group
+    points = insight_points(results)
+    return {
+        "self_estimates": _self_estimates(g.self_estimates),
+        "self_estimates_note": g.self_estimates_note or "",
+        "ability": None if ctx["small_group"] else _ability(results),
+        "insight_chart": _insight_chart(results, ctx),
+        "n_insight": len(points),
+        "n_insight_few": sum(p["few"] for p in points),
+    }
+
+
 def appendix_context(results: RoundResults, settings: Settings) -> dict[str, Any]:
     """Everything appendix.html.j2 needs: aggregates only, no participant code or identity."""
     cfg = results.round.config
@@ -506,6 +659,8 @@ def appendix_context(results: RoundResults, settings: Settings) -> dict[str, Any
         "calibration": _calibration_rows(results),
         "items": _item_analysis_rows(results, settings),
         "flagged": [it for it in _item_analysis_rows(results, settings) if it["flagged"]],
+        "views": _group_views(results, ctx),
+        "group_methods": True,
         "charts": {
             "distributions": None if ctx["small_group"] else charts.image(
                 charts.group_distributions(panels)),

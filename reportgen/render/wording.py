@@ -103,6 +103,13 @@ def fmt_interval(m: Metric, kind: str = "number", digits: int | None = None) -> 
     return f"{fmt_number(m.low, d)} to {fmt_number(m.high, d)}"
 
 
+def fmt_p(p: float | None) -> str:
+    """A p-value: ``"p = 0.047"``, ``"p < 0.001"``."""
+    if p is None or not _finite(p):
+        return DASH
+    return "p < 0.001" if p < 0.001 else f"p = {p:.3f}"
+
+
 def fmt_date(day: dt.date) -> str:
     """``2026-05-15 -> "15 May 2026"`` without the locale."""
     return f"{day.day} {_MONTHS[day.month - 1]} {day.year}"
@@ -258,31 +265,55 @@ def read_gamma(m: Metric) -> str:
             "scale from \u22121 to +1, where 0 means none." + _caution(m))
 
 
+def read_meta_d(m: Metric, d_prime: Metric) -> str:
+    if not m.estimable or m.value is None:
+        return not_estimable(m)
+    against = (f" against your d\u2032 of {fmt_number(d_prime.value)}"
+               if d_prime.estimable else "")
+    return (f"meta-d\u2032 = {fmt_number(m.value)}{against}: how well your confidence separated "
+            "right from wrong, in units of d\u2032 (an ideal observer\u2019s meta-d\u2032 equals "
+            "its d\u2032)." + _caution(m))
+
+
 def read_m_ratio(m: Metric) -> str:
     if not m.estimable or m.value is None:
         return not_estimable(m)
+    if m.value <= 0:
+        return ("Your confidence carried none of the information your decisions contained (an "
+                "M-ratio at or below 0 means confidence was no higher, or even lower, when you "
+                "were right; 100\u00a0% is what an ideal observer with your d\u2032 would show)."
+                + _caution(m))
     return (f"Your confidence carried about {fmt_percent(m.value, 0)} of the information your "
             "decisions contained (100\u00a0% is what an ideal observer with your d\u2032 would "
             "show)." + _caution(m))
 
 
 def read_relative_insight(observed: Metric, expected: Metric) -> str:
-    """Compare the type-2 ROC area with that of an ideal observer with the same d′."""
+    """Compare the type-2 ROC area with that of an ideal observer with the same d′, criterion and
+    use of the confidence levels; the verdict rests on whether the ideal observer's value lies
+    inside the 95 % interval of the observed one."""
     if not observed.estimable or not expected.estimable or expected.value is None:
         return ""
+    exp = fmt_number(expected.value)
+    text = (f"Your type-2 ROC area was {fmt_number(observed.value)}")
     lo, hi = observed.low, observed.high
-    if _finite(lo) and _finite(hi) and lo is not None and hi is not None:
-        if expected.value < lo:
-            verdict = "more than"
-        elif expected.value > hi:
-            verdict = "less than"
-        else:
-            verdict = "about as much as"
+    ideal = ("an ideal observer with your d\u2032, your response bias and your use of the "
+             f"confidence levels would reach about {exp}")
+    if lo is None or hi is None or not (_finite(lo) and _finite(hi)):
+        text += (f"; {ideal}. Without an interval for your value, this round cannot tell "
+                 "whether the difference is more than chance.")
     else:
-        verdict = "compared with"
-    return (f"An ideal observer as accurate as you would reach a type-2 area of about "
-            f"{fmt_number(expected.value)}; your confidence separated right from wrong "
-            f"{verdict} your accuracy would allow.")
+        text += f" (95\u00a0% interval {fmt_interval(observed)}); {ideal}"
+        if expected.value < lo:
+            text += (", below your interval: your confidence separated right from wrong more "
+                     "than expected for your accuracy.")
+        elif expected.value > hi:
+            text += (", above your interval: your confidence separated right from wrong less "
+                     "than expected for your accuracy.")
+        else:
+            text += (", inside your interval: your confidence separated right from wrong about "
+                     "as well as expected for your accuracy.")
+    return text + _caution(observed)
 
 
 def read_overconfidence(m: Metric, cfg: RoundConfig) -> str:
@@ -340,6 +371,8 @@ def readings(p: ParticipantResult, cfg: RoundConfig) -> dict[str, str]:
         "gamma": read_gamma(m["gamma"]),
         "m_ratio": read_m_ratio(m["m_ratio"]),
     }
+    if "meta_d" in m:
+        out["meta_d"] = read_meta_d(m["meta_d"], m["d_prime"])
     if "expected_type2_auroc" in m:
         out["relative_insight"] = read_relative_insight(m["type2_auroc"],
                                                         m["expected_type2_auroc"])

@@ -5,7 +5,10 @@ not move when scoring changes. Values are computed with simple textbook formulas
 a real round; they are *not* reference values for scoring.
 
 ``build_results(n_participants, n_items)`` is deterministic. Participant 0 never errs (so the
-"no errors" notes appear); participant 1 carries a hostile name to test escaping.
+"no errors" notes appear); participant 1 carries a hostile name to test escaping. The group views
+(self-estimate quartiles, insight by ability, the ideal-observer curve) come from the pure
+functions of ``reportgen.metrics``; ``estimates`` chooses their source ("file", "confidence" or
+None for no view).
 """
 
 from __future__ import annotations
@@ -17,15 +20,24 @@ from statistics import NormalDist
 
 import numpy as np
 
+from reportgen.metrics.metad import ideal_observer
+from reportgen.metrics.selfestimate import (
+    AbilityGroup,
+    insight_by_ability,
+    quartile_reading,
+    quartile_view,
+)
 from reportgen.results import (
     CriterionOutcome,
     Distribution,
     GroupResult,
+    IdealPoint,
     ItemResult,
     LevelRow,
     Metric,
     ParticipantResult,
     RoundResults,
+    SelfEstimateView,
 )
 from reportgen.rounds.model import (
     ABSTAINED,
@@ -238,9 +250,45 @@ def _items(rnd: Round) -> tuple[ItemResult, ...]:
     return tuple(out)
 
 
+NO_ESTIMATES_NOTE = "only 3 participants have both a score and an estimate (8 needed)"
+
+
+PerParticipant = list[tuple[dict[str, int], dict[str, Metric], tuple[LevelRow, ...]]]
+
+
+def _self_estimates(acc: np.ndarray, per: PerParticipant, estimates: str | None, seed: int
+                    ) -> tuple[SelfEstimateView | None, str | None]:
+    """Estimates that lean towards the middle (so the weakest overestimate), or mean confidence."""
+    if estimates is None or acc.size < 8:
+        return None, NO_ESTIMATES_NOTE
+    if estimates == "file":
+        rng = np.random.default_rng(seed)
+        estimate = np.clip(0.5 * acc + 0.4 + rng.normal(0, 0.05, acc.size), 0, 1)
+        view = quartile_view(acc, estimate, n_perm=500, seed=seed)
+        return SelfEstimateView("estimates file", "accuracy", view, quartile_reading(view)), None
+    conf = np.array([0.5 + ((m["mean_confidence_correct"].value or 3.0) - 1) / 8
+                     for _, m, _ in per])
+    decisive = np.array([m["decisive_accuracy"].value or 0.0 for _, m, _ in per])
+    view = quartile_view(decisive, conf, n_perm=500, seed=seed)
+    return (SelfEstimateView("mean stated confidence", "decisive_accuracy", view,
+                             quartile_reading(view)), None)
+
+
+def _ability(per: PerParticipant) -> tuple[AbilityGroup, ...]:
+    def col(name: str) -> list[float]:
+        return [np.nan if (v := m[name].value) is None else v for _, m, _ in per]
+
+    return insight_by_ability(col("accuracy"), col("mean_confidence_correct"),
+                              col("mean_confidence_wrong"))
+
+
+IDEAL_CURVE = tuple(IdealPoint(d, ideal_observer(d, 0.0, 5).type2_auroc)
+                    for d in (0.5, 1.0, 1.5, 2.0, 2.5, 3.0, 3.5, 4.0))
+
+
 def build_results(n_participants: int = 8, n_items: int = 20, seed: int = 7,
-                  config: RoundConfig | None = None, folder: Path | None = None
-                  ) -> RoundResults:
+                  config: RoundConfig | None = None, folder: Path | None = None,
+                  estimates: str | None = "file") -> RoundResults:
     rnd = build_round(n_participants, n_items, seed, config, folder)
     per = [_participant_metrics(rnd, p) for p in range(n_participants)]
     acc = np.array([m["accuracy"].value for _, m, _ in per], dtype=float)
@@ -256,6 +304,7 @@ def build_results(n_participants: int = 8, n_items: int = 20, seed: int = 7,
             overall_text=("All announced criteria were met." if ok else
                           "Not all announced criteria were met; see the table of criteria.")))
     names = list(per[0][1])
+    view, view_note = _self_estimates(acc, per, estimates, seed)
     group_levels = tuple(
         LevelRow(level=float(k), correct=sum(lv[k - 1].correct for _, _, lv in per),
                  wrong=sum(lv[k - 1].wrong for _, _, lv in per),
@@ -281,6 +330,10 @@ def build_results(n_participants: int = 8, n_items: int = 20, seed: int = 7,
         robust={"accuracy": (med, mad)},
         error_types={k: sum(c[k] for c, _, _ in per) for k in error_keys},
         levels=group_levels,
+        self_estimates=view,
+        self_estimates_note=view_note,
+        ability_groups=_ability(per),
+        ideal_curve=IDEAL_CURVE,
     )
     return RoundResults(rnd, tuple(participants), _items(rnd), group)
 

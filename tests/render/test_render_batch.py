@@ -2,11 +2,16 @@
 
 from __future__ import annotations
 
+import os
 import re
+import time
+from typing import Any
 
+import pytest
 from hypothesis import given
 from hypothesis import strategies as st
 
+from reportgen.errors import BuildError
 from reportgen.render.batch import MAX_STEM, output_names, render_documents, safe_stems
 from reportgen.settings import Settings
 
@@ -77,3 +82,23 @@ def test_a_safe_code_shaped_like_a_hashed_stem_still_gets_its_own_name() -> None
     assert stems[clash] != stems["a/b"]
     for stem in stems.values():
         _assert_safe(stem)
+
+
+class _KillsTheWorker:
+    """Unpickling this ends the process at once (``os._exit``): a worker that crashes outright,
+    as one killed by the kernel or crashing inside a C library would."""
+
+    def __reduce__(self) -> tuple[Any, tuple[int]]:
+        return os._exit, (3,)
+
+
+def test_a_worker_that_dies_raises_build_error_instead_of_hanging() -> None:
+    results = build_results(n_participants=3, n_items=6)
+    # Previous rounds travel to every worker with the round; no participant has this code, so
+    # the document rendered in this process never touches it.
+    poison = {"not-a-participant": [_KillsTheWorker()]}
+    start = time.monotonic()
+    with pytest.raises(BuildError, match="worker process stopped unexpectedly"):
+        dict(render_documents(results, Settings(), jobs=2,
+                              previous_rounds=poison))  # type: ignore[arg-type]
+    assert time.monotonic() - start < 120

@@ -53,3 +53,28 @@ def test_png_export_is_sharp_and_deterministic() -> None:
     assert image.uri.startswith("data:image/png;base64,")
     width, height = charts.png_size(charts.png(chart))
     assert (width, height) == (2 * image.width, 2 * image.height)  # scale 2
+
+
+def _insight_spec(own: dict[str, float | None] | None) -> str:
+    points = [{"d_prime": 1.0 + k / 10, "type2_auroc": 0.6 + k / 50, "few": k % 2 == 0}
+              for k in range(10)]
+    curve = [{"d_prime": d, "type2_auroc": 0.5 + d / 10} for d in (0.5, 1.0, 2.0, 4.0)]
+    return json.dumps(charts._spec(charts.insight_against_dprime(
+        points, curve, accent="#123456", few_errors=11, own=own)))
+
+
+def test_insight_scatter_highlights_only_a_drawable_own_point() -> None:
+    with_point = _insight_spec({"d_prime": 1.5, "type2_auroc": 0.7, "low": 0.55, "high": 0.85,
+                                "expected": 0.75})
+    assert f'"{charts.YOU}"' in with_point
+    assert "fewer than 11 errors: unstable" in with_point  # the few-errors flag has a legend
+    assert "ideal observer" in with_point
+    no_point = _insight_spec({"d_prime": 4.9, "type2_auroc": None, "low": None, "high": None,
+                              "expected": 0.9})
+    assert f'"{charts.YOU}"' not in no_point
+    assert "4.9" not in no_point  # an undrawn point does not stretch the axis either
+
+
+def test_axis_ticks_do_not_crowd() -> None:
+    assert charts._ticks(0.0, 4.0) == [0.0, 0.5, 1.0, 1.5, 2.0, 2.5, 3.0, 3.5, 4.0]
+    assert charts._ticks(-0.5, 4.5) == [0.0, 1.0, 2.0, 3.0, 4.0]

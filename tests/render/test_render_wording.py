@@ -70,11 +70,47 @@ def test_overconfidence_reading_names_the_convention() -> None:
 
 
 def test_relative_insight_compares_with_the_ideal_observer() -> None:
+    # Expected value above the observed interval: less than expected.
     below = wording.read_relative_insight(Metric(0.6, 0.5, 0.7), Metric(0.8))
-    assert "less than" in below
+    assert "above your interval" in below
+    assert "less than expected for your accuracy" in below
+    # Inside the interval: about as well as expected, whatever the point estimate says.
     within = wording.read_relative_insight(Metric(0.75, 0.6, 0.9), Metric(0.8))
-    assert "about as much as" in within
+    assert "inside your interval" in within
+    assert "about as well as expected for your accuracy" in within
+    # Below the interval: more than expected.
+    above = wording.read_relative_insight(Metric(0.9, 0.82, 0.97), Metric(0.8))
+    assert "more than expected for your accuracy" in above
+    # The sentence names both values and the interval it judged by.
+    assert "0.75" in within and "0.80" in within and "0.60 to 0.90" in within
     assert wording.read_relative_insight(Metric(None, note="no errors"), Metric(0.8)) == ""
+
+
+def test_relative_insight_without_an_interval_claims_no_verdict() -> None:
+    text = wording.read_relative_insight(Metric(0.6), Metric(0.8))
+    assert "cannot tell" in text
+    for verdict in ("less than expected", "more than expected", "as well as expected"):
+        assert verdict not in text
+
+
+def test_relative_insight_carries_the_few_errors_caution() -> None:
+    text = wording.read_relative_insight(Metric(0.7, 0.5, 0.9, "few errors: unstable"),
+                                         Metric(0.75))
+    assert text.endswith("Caution: few errors: unstable.")
+
+
+def test_meta_d_reading_names_d_prime_and_caution() -> None:
+    text = wording.read_meta_d(Metric(1.25, 0.44, 2.19, "few errors: unstable"), Metric(1.93))
+    assert text.startswith("meta-d\u2032 = 1.25 against your d\u2032 of 1.93")
+    assert text.endswith("Caution: few errors: unstable.")
+    assert wording.read_meta_d(Metric(None, note="no errors"), Metric(1.9)) == (
+        "Not estimable for you in this round (no errors).")
+
+
+def test_fmt_p() -> None:
+    assert wording.fmt_p(0.7471) == "p = 0.747"
+    assert wording.fmt_p(0.0004) == "p < 0.001"
+    assert wording.fmt_p(None) == "\u2014"
 
 
 def test_every_reading_is_one_line(results: RoundResults) -> None:
@@ -83,3 +119,9 @@ def test_every_reading_is_one_line(results: RoundResults) -> None:
         for name, text in wording.readings(p, cfg).items():
             assert "\n" not in text, name
             assert text == "" or text.endswith("."), (name, text)
+
+
+def test_a_negative_m_ratio_is_not_read_as_a_negative_share() -> None:
+    text = wording.read_m_ratio(Metric(-0.09, -1.5, 1.3))
+    assert "\u22129" not in text and "none of the information" in text
+    assert "about 65\u00a0%" in wording.read_m_ratio(Metric(0.65, 0.2, 1.1))
