@@ -45,6 +45,8 @@ def main() -> None:
     with tempfile.TemporaryDirectory() as tmp:
         for n in (args.participants, 4 * args.participants):
             folder = write_round(simulate_round(n, args.items, seed=7), Path(tmp) / f"r{n}")
+            with (folder / "round.toml").open("a", encoding="utf-8") as fh:
+                fh.write("\n[limits]\nmax_rows = 2000000\nmax_cells = 20000000\n")
             t_load, t_score = _time(folder, settings, args.repeat)
             rows.append((n, t_load, t_score))
             print(f"{n:>6} participants x {args.items} items: read {t_load:6.2f} s, "

@@ -2,19 +2,25 @@
 
 * :class:`Staging` writes every output into a hidden sibling folder and moves it into place only
   when the run is complete; a lock stops two runs writing the same OUT at once. A run killed at
-  any point leaves either the previous complete OUT or none, never a mix.
+  any point leaves the previous complete OUT or the new one, never a mix (on Linux the two are
+  exchanged in one step; elsewhere a kill between two renames can leave no OUT, and the next run
+  puts the previous one back). OUT is replaced only if it is absent, empty or a reportgen output
+  folder, so ``-o`` naming the round folder or a home folder cannot delete it.
 * :func:`manifest` records the SHA-256 of every input, the settings and every output, with the
   software versions; :func:`verify` recomputes them and names what changed.
 """
 
 from __future__ import annotations
 
+import ctypes
+import errno
 import fcntl
 import hashlib
 import json
 import os
 import platform
 import shutil
+import sys
 from collections.abc import Iterator, Mapping, Sequence
 from dataclasses import dataclass
 from importlib import metadata
@@ -81,6 +87,7 @@ class Staging:
     def __enter__(self) -> Staging:
         if self.out.exists() and not self.out.is_dir():
             raise OutputError(f"{self.out} exists and is not a folder")
+        _refuse_foreign(self.out)  # before the lock file is made beside it; again under the lock
         try:
             self.parent.mkdir(parents=True, exist_ok=True)
             fd = os.open(self.lock_path, os.O_RDWR | os.O_CREAT, 0o644)
@@ -94,9 +101,16 @@ class Staging:
                 f"another reportgen run is writing {self.out} right now; wait for it to finish"
             ) from exc
         self._lock_fh = fd
-        self._recover()
-        shutil.rmtree(self.stage, ignore_errors=True)
-        self.stage.mkdir()
+        try:
+            self._recover()
+            _refuse_foreign(self.out)
+            shutil.rmtree(self.stage, ignore_errors=True)
+            self.stage.mkdir()
+        except BaseException as exc:
+            self._unlock()
+            if isinstance(exc, OSError):
+                raise OutputError(f"cannot write in {self.parent}: {exc.strerror}") from exc
+            raise
         return self
 
     def _recover(self) -> None:
@@ -119,18 +133,62 @@ class Staging:
             else:
                 shutil.rmtree(self.stage, ignore_errors=True)
         finally:
-            if self._lock_fh is not None:
-                fcntl.flock(self._lock_fh, fcntl.LOCK_UN)
-                os.close(self._lock_fh)
-                self._lock_fh = None
+            self._unlock()
+
+    def _unlock(self) -> None:
+        if self._lock_fh is not None:
+            fcntl.flock(self._lock_fh, fcntl.LOCK_UN)
+            os.close(self._lock_fh)
+            self._lock_fh = None
 
     def _commit(self) -> None:
         _fsync_dir(self.stage)
+        if self.out.exists() and _exchange(self.stage, self.out):
+            _fsync_dir(self.parent)  # OUT is the new output; the stage holds the previous one
+            shutil.rmtree(self.stage, ignore_errors=True)
+            return
         if self.out.exists():
             os.replace(self.out, self.old)
         os.replace(self.stage, self.out)
         _fsync_dir(self.parent)
         shutil.rmtree(self.old, ignore_errors=True)
+
+
+def _refuse_foreign(out: Path) -> None:
+    """OUT is replaced as a whole: refuse a folder that holds anything but a reportgen output."""
+    if not out.is_dir() or not any(out.iterdir()):
+        return
+    try:
+        doc = json.loads((out / MANIFEST).read_text(encoding="utf-8"))
+        ours = isinstance(doc, dict) and doc.get("format") == MANIFEST_FORMAT
+    except (OSError, ValueError):
+        ours = False
+    if not ours:
+        raise OutputError(
+            f"{out} is not empty and is not a reportgen output folder (it has no reportgen "
+            f"{MANIFEST}); reportgen replaces its output folder as a whole, so name a new or "
+            "empty folder with -o")
+
+
+_AT_FDCWD = -100
+_RENAME_EXCHANGE = 2
+
+
+def _exchange(a: Path, b: Path) -> bool:
+    """Swap two existing paths in one step (Linux ``renameat2(RENAME_EXCHANGE)``); ``False``
+    where the system or file system cannot, so the caller falls back to two renames."""
+    if not sys.platform.startswith("linux"):
+        return False
+    try:
+        renameat2 = ctypes.CDLL(None, use_errno=True).renameat2
+    except (AttributeError, OSError):  # a C library without renameat2 (glibc < 2.28, musl)
+        return False
+    if renameat2(_AT_FDCWD, os.fsencode(a), _AT_FDCWD, os.fsencode(b), _RENAME_EXCHANGE) == 0:
+        return True
+    code = ctypes.get_errno()
+    if code in (errno.EINVAL, errno.ENOSYS, errno.EOPNOTSUPP, errno.EPERM):
+        return False
+    raise OSError(code, os.strerror(code), str(b))
 
 
 def _fsync_dir(path: Path) -> None:

@@ -23,11 +23,19 @@ from reportgen.render.results_json import round_json
 from reportgen.results import RoundResults
 
 Cell = str | int | float | None
+_ESCAPE_LIKE = re.compile(r"_(x[0-9A-Fa-f]{4}_)")
 _MODIFIED = re.compile(rb"(<dcterms:modified[^>]*>)[^<]*(</dcterms:modified>)")
 
 
+def _keep_cr(text: str) -> str:
+    """A carriage return would be read back as a line feed (XML end-of-line handling), so it is
+    written as the OOXML escape ``_x000D_``; text that already looks like an escape has its
+    underscore escaped (``_x005F_``) so that it too reads back unchanged (ECMA-376 ST_Xstring)."""
+    return _ESCAPE_LIKE.sub(r"_x005F_\1", text).replace("\r", "_x000D_")
+
+
 def _append(ws: Worksheet, row: Sequence[Cell]) -> None:
-    ws.append(list(row))
+    ws.append([_keep_cr(v) if isinstance(v, str) else v for v in row])
     for cell in ws[ws.max_row]:
         if isinstance(cell.value, str):
             cell.data_type = "s"  # never a formula, whatever the text starts with

@@ -9,7 +9,7 @@ from __future__ import annotations
 import math
 import unicodedata
 from collections import defaultdict
-from collections.abc import Sequence
+from collections.abc import Iterable, Sequence
 from dataclasses import dataclass
 from pathlib import Path
 
@@ -123,6 +123,7 @@ def _items(table: Table, cfg: RoundConfig, log: ProblemLog) -> tuple[
     if not _require_columns(table, (col.item, col.truth), log):
         return [], [], {}
     labels = _Labels(cfg.classes.labels, cfg.scoring.normalise_labels, "truth class", log)
+    _non_text_codes(table, col.item, "item id", log)
     items: list[str] = []
     truths: list[str] = []
     seen: dict[str, int] = {}
@@ -161,10 +162,13 @@ def _long_answers(table: Table, cfg: RoundConfig, log: ProblemLog) -> list[_Answ
     names = (col.participant, col.item, col.decision, col.confidence)
     if not _require_columns(table, names, log):
         return []
+    skip = (_non_text_codes(table, col.participant, "participant code", log)
+            | _non_text_codes(table, col.item, "item id", log))
     columns = [table.column(n) for n in names]
     return [
         _Answer(p, i, d, c, row, names)
         for p, i, d, c, row in zip(*columns, table.row_numbers, strict=True)
+        if row not in skip
     ]
 
 
@@ -176,8 +180,8 @@ def _wide_answers(table: Table, cfg: RoundConfig, items: Sequence[str],
     known = set(items)
     pairs: list[tuple[str, str, str]] = []
     for item in items:
-        dcol = cfg.wide.decision.format(item=item)
-        ccol = cfg.wide.confidence.format(item=item)
+        dcol = cfg.wide.decision.replace("{item}", item)
+        ccol = cfg.wide.confidence.replace("{item}", item)
         if table.has(dcol) != table.has(ccol):
             missing = ccol if table.has(dcol) else dcol
             log.error(table.file, f"column {missing!r} is missing (its partner for item "
@@ -192,11 +196,12 @@ def _wide_answers(table: Table, cfg: RoundConfig, items: Sequence[str],
                 log.error(table.file, "response column for an item that is not in the key",
                           value=stray, sheet=table.sheet, row=table.header_row, column=name)
     codes = table.column(col.participant)
+    skip = _non_text_codes(table, col.participant, "participant code", log)
     answers = []
     for item, dcol, ccol in pairs:
         for p, d, c, row in zip(codes, table.column(dcol), table.column(ccol), table.row_numbers,
                                 strict=True):
-            if d == "" and c == "":
+            if (d == "" and c == "") or row in skip:
                 continue  # not answered: reported as a missing item later
             answers.append(_Answer(p, item, d, c, row, (col.participant, dcol, dcol, ccol)))
     return answers
@@ -226,6 +231,67 @@ def _parse_confidence(text: str, cfg: RoundConfig) -> tuple[float | None, str | 
     return value, None
 
 
+_NOT_TEXT = {
+    "d": "a date or time in the spreadsheet, not text: the spreadsheet program probably turned "
+         "the code into a date",
+    "b": "TRUE/FALSE in the spreadsheet, not text",
+    "e": "a spreadsheet error value, not text",
+}
+_FIX_TEXT = "format the column as Text, type the codes again and save"
+
+
+def _non_text_codes(table: Table, name: str, what: str, log: ProblemLog) -> set[int]:
+    """Report code cells (participant, item) that a spreadsheet stored as a date, TRUE/FALSE, an
+    error value, or a number it may have rounded; return the row numbers reported."""
+    if not table.has(name):
+        return set()
+    j = table.columns.index(name)
+    bad: set[int] = set()
+    for kinds, text, row in zip(table.kinds, table.column(name), table.row_numbers, strict=True):
+        kind = kinds[j]
+        if kind in _NOT_TEXT:
+            problem = f"{what} is {_NOT_TEXT[kind]}; {_FIX_TEXT}"
+        elif kind == "n" and not text.lstrip("-").isdigit():
+            problem = (f"{what} is a number with a fraction or an exponent in the spreadsheet; "
+                       "spreadsheets keep only 15 digits of a number, so a long code typed as a "
+                       f"number is changed: {_FIX_TEXT}")
+        else:
+            continue
+        log.error(table.file, problem, value=text, **_where(table, row, name))
+        bad.add(row)
+    return bad
+
+
+def _zero_twins(values: Iterable[str]) -> dict[str, list[str]]:
+    """Digit-only codes by their value without leading zeros (``'0042'`` and ``'42'`` -> '42')."""
+    twins: dict[str, list[str]] = defaultdict(list)
+    for value in sorted(set(values)):
+        if value.isascii() and value.isdigit():
+            twins[value.lstrip("0") or "0"].append(value)
+    return twins
+
+
+def _did_you_mean(value: str, twins: dict[str, list[str]]) -> str:
+    """``"; did you mean '0042'? ..."`` when ``value`` matches a known code but for leading
+    zeros (a spreadsheet drops them from a code it reads as a number); else ``""``. Never a
+    guess: the value is still refused."""
+    if not (value.isascii() and value.isdigit()):
+        return ""
+    candidates = [c for c in twins.get(value.lstrip("0") or "0", []) if c != value]
+    if not candidates:
+        return ""
+    shown = " or ".join(repr(c) for c in candidates)
+    return (f"; did you mean {shown}? A spreadsheet program may have dropped the leading zeros: "
+            "format the column as Text")
+
+
+def _shown_code(code: str) -> str:
+    """A code as quoted in a message; with its escapes too when it is not plain ASCII, so codes
+    that look the same but are written differently (é as one or two characters) can be told
+    apart."""
+    return repr(code) if code.isascii() else f"{code!r} (written {code!a})"
+
+
 def _fold_code(code: str) -> str:
     return unicodedata.normalize("NFKC", code).strip().casefold()
 
@@ -242,11 +308,14 @@ def _check_codes(answers: Sequence[_Answer], table: Table, log: ProblemLog) -> N
     by_fold: dict[str, list[str]] = defaultdict(list)
     for code in sorted(first_row):
         by_fold[_fold_code(code)].append(code)
-    for codes in by_fold.values():
+    groups = [("case, spaces or Unicode form", codes) for codes in by_fold.values()]
+    groups += [("leading zeros (a spreadsheet program may have dropped them: format the column "
+                "as Text)", codes) for codes in _zero_twins(first_row).values()]
+    for how, codes in groups:
         if len(codes) > 1:
-            shown = "; ".join(f"{c!r} (first at row {first_row[c]})" for c in codes)
-            log.error(table.file, "participant codes differ only by case, spaces or Unicode "
-                      f"form and would be read as different people: {shown}",
+            shown = "; ".join(f"{_shown_code(c)} (first at row {first_row[c]})" for c in codes)
+            log.error(table.file, f"participant codes differ only by {how} and would be read "
+                      f"as different people: {shown}",
                       sheet=table.sheet, row=first_row[codes[1]], value=codes[1],
                       column=answers[0].columns[0])
 
@@ -256,6 +325,7 @@ def _identities(table: Table, cfg: RoundConfig, codes: set[str],
     col = cfg.columns
     if not _require_columns(table, (col.participant,), log):
         return {}
+    _non_text_codes(table, col.participant, "participant code", log)
     names = table.column(col.name) if table.has(col.name) else ("",) * len(table.rows)
     orgs = (table.column(col.organisation) if table.has(col.organisation)
             else ("",) * len(table.rows))
@@ -281,6 +351,8 @@ def _estimates(table: Table, cfg: RoundConfig, codes: set[str],
     col = cfg.columns
     if not _require_columns(table, (col.participant, col.estimate), log):
         return {}
+    twins = _zero_twins(codes)
+    skip = _non_text_codes(table, col.participant, "participant code", log)
     whens = table.column(col.when) if table.has(col.when) else ("after",) * len(table.rows)
     parsed: dict[tuple[str, str], float] = {}
     for code, text, when, row in zip(table.column(col.participant), table.column(col.estimate),
@@ -290,8 +362,11 @@ def _estimates(table: Table, cfg: RoundConfig, codes: set[str],
             log.error(table.file, "'when' must be before or after", value=when,
                       **_where(table, row, col.when))
             continue
+        if row in skip:
+            continue
         if code not in codes:
-            log.error(table.file, "estimate for a participant with no responses", value=code,
+            log.error(table.file, "estimate for a participant with no responses"
+                      + _did_you_mean(code, twins), value=code,
                       **_where(table, row, col.participant))
             continue
         try:
@@ -318,8 +393,8 @@ def _estimates(table: Table, cfg: RoundConfig, codes: set[str],
 def load_round(folder: Path, known_metrics: frozenset[str],
                limits: ReadLimits | None = None) -> Round:
     """Read and validate every file of a round folder (DESIGN §2)."""
-    limits = limits or ReadLimits()
     cfg = load_config(folder, known_metrics)
+    limits = limits or _read_limits(cfg)
     log = ProblemLog()
     files = cfg.files
     t_items = _read(folder, "items", files.items, cfg, log, required=True, limits=limits)
@@ -338,13 +413,16 @@ def load_round(folder: Path, known_metrics: frozenset[str],
         answers = _wide_answers(t_resp, cfg, items, log)
     _check_codes(answers, t_resp, log)
     matrices = _fill_matrices(answers, t_resp, cfg, items, log)
+    if not matrices.participants and not log.errors:
+        _no_responses(t_resp, cfg, items, log)
     codes = set(matrices.participants)
     identities = _identities(t_people, cfg, codes, log) if t_people is not None else None
     if identities is not None:
+        twins = _zero_twins(identities)
         for code in sorted(codes - set(identities)):
             log.error(t_resp.file, "participant code is not in the participants file "
-                      f"{t_people.file if t_people else ''}", value=code,
-                      sheet=t_resp.sheet, row=matrices.first_row[code],
+                      f"{t_people.file if t_people else ''}" + _did_you_mean(code, twins),
+                      value=code, sheet=t_resp.sheet, row=matrices.first_row[code],
                       column=cfg.columns.participant)
     estimates = _estimates(t_est, cfg, codes, log) if t_est is not None else None
     log.raise_if_errors()
@@ -371,6 +449,31 @@ def load_round(folder: Path, known_metrics: frozenset[str],
     )
 
 
+def _read_limits(cfg: RoundConfig) -> ReadLimits:
+    """[limits] of round.toml as the reader's limits."""
+    mib = 1 << 20
+    return ReadLimits(max_rows=cfg.limits.max_rows, max_cells=cfg.limits.max_cells,
+                      setting="[limits] {key} in round.toml",
+                      max_uncompressed_bytes=cfg.limits.max_unpacked_mib * mib,
+                      max_compression_ratio=cfg.limits.max_compression_ratio,
+                      max_file_bytes=cfg.limits.max_file_mib * mib)
+
+
+def _no_responses(table: Table, cfg: RoundConfig, items: Sequence[str], log: ProblemLog) -> None:
+    """A responses table from which no answer was read (a wide sheet whose columns do not
+    follow the [wide] patterns): refused, never scored as a round without participants."""
+    if cfg.files.layout == "wide" and items:
+        example = (cfg.wide.decision.replace("{item}", items[0]),
+                   cfg.wide.confidence.replace("{item}", items[0]))
+        log.error(table.file, "no response columns found: a wide sheet needs a decision and a "
+                  "confidence column for each item of the key, named by the [wide] patterns in "
+                  f"round.toml (for item {items[0]!r}: {example[0]!r} and {example[1]!r})",
+                  sheet=table.sheet, row=table.header_row,
+                  allowed="columns present: " + ", ".join(table.columns))
+    else:
+        log.error(table.file, "no responses were read", sheet=table.sheet)
+
+
 def _sha256(path: Path) -> str:
     import hashlib
 
@@ -389,6 +492,7 @@ class _Matrices:
 def _fill_matrices(answers: Sequence[_Answer], table: Table, cfg: RoundConfig,
                    items: Sequence[str], log: ProblemLog) -> _Matrices:
     item_index = {item: i for i, item in enumerate(items)}
+    twins = _zero_twins(items)
     decisions = _Labels(sorted(cfg.decisions), cfg.scoring.normalise_labels, "decision label",
                         log)
     code_of = {ABSTAIN: ABSTAINED, cfg.classes.positive: SAID_POSITIVE,
@@ -411,7 +515,8 @@ def _fill_matrices(answers: Sequence[_Answer], table: Table, cfg: RoundConfig,
         i = item_index.get(a.item)
         if i is None:
             if cfg.files.layout == "long":
-                log.error(table.file, "response to an item that is not in the key",
+                log.error(table.file, "response to an item that is not in the key"
+                          + _did_you_mean(a.item, twins),
                           value=a.item, allowed="the item ids of the key",
                           **_where(table, a.row, icol))
             continue
@@ -427,11 +532,8 @@ def _fill_matrices(answers: Sequence[_Answer], table: Table, cfg: RoundConfig,
         conf, allowed = _parse_confidence(a.confidence, cfg)
         blank_ok = a.confidence.strip() == "" and target == ABSTAIN
         if conf is None and not blank_ok:
-            what = "confidence is blank" if a.confidence.strip() == "" else (
-                "confidence is not a number" if allowed and not _is_number(a.confidence)
-                else "confidence is outside the scale")
-            log.error(table.file, what, value=a.confidence, allowed=allowed,
-                      **_where(table, a.row, ccol))
+            log.error(table.file, _confidence_problem(a.confidence, cfg), value=a.confidence,
+                      allowed=allowed, **_where(table, a.row, ccol))
             continue
         if target is None:
             continue
@@ -444,12 +546,19 @@ def _fill_matrices(answers: Sequence[_Answer], table: Table, cfg: RoundConfig,
     return _Matrices(participants, decision, confidence, raw.astype(str), first_row)
 
 
-def _is_number(text: str) -> bool:
+def _confidence_problem(text: str, cfg: RoundConfig) -> str:
+    """What is wrong with a confidence that :func:`_parse_confidence` refused."""
+    if text.strip() == "":
+        return "confidence is blank"
     try:
-        float(text.replace(",", "."))
+        value = float(text.replace(",", "."))
     except ValueError:
-        return False
-    return True
+        return "confidence is not a number"
+    scale = cfg.confidence
+    if (scale.kind == "ordinal" and math.isfinite(value) and scale.min <= value <= scale.max
+            and value != int(value)):
+        return "confidence is not a whole number (the scale is ordinal)"
+    return "confidence is outside the scale"
 
 
 def _check_coverage(decision: np.ndarray, participants: Sequence[str], items: Sequence[str],

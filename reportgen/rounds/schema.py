@@ -7,9 +7,17 @@ from __future__ import annotations
 
 import datetime as dt
 import re
+import unicodedata
 from typing import Literal
 
-from pydantic import BaseModel, ConfigDict, Field, model_validator
+from pydantic import (
+    BaseModel,
+    ConfigDict,
+    Field,
+    ValidationInfo,
+    field_validator,
+    model_validator,
+)
 
 from reportgen.metrics.metad import FEW_ERRORS_THRESHOLD
 
@@ -18,7 +26,20 @@ ABSTAIN = "inconclusive"
 
 
 class _Table(BaseModel):
-    model_config = ConfigDict(extra="forbid", frozen=True)
+    model_config = ConfigDict(extra="forbid", frozen=True, allow_inf_nan=False)
+
+
+_CONTROL = re.compile(r"[\x00-\x1f\x7f]")
+
+
+def _no_control_characters(value: str | None, what: str) -> None:
+    if value is not None and _CONTROL.search(value):
+        raise ValueError(f"{what} contains a control character (such as a NUL or a line break)")
+
+
+def _fold(label: str) -> str:
+    """A label as compared when ``normalise_labels`` is on: NFKC, stripped, any case."""
+    return unicodedata.normalize("NFKC", label).strip().casefold()
 
 
 class RoundInfo(_Table):
@@ -53,11 +74,18 @@ class Provider(_Table):
     logo: str | None = None
     accent: str = "#5f6b73"
 
-    @model_validator(mode="after")
-    def _accent_is_hex(self) -> Provider:
-        if not re.fullmatch(r"#[0-9a-fA-F]{6}", self.accent):
-            raise ValueError(f"accent must be a colour like #5f6b73, not {self.accent!r}")
-        return self
+    @field_validator("accent")
+    @classmethod
+    def _accent_is_hex(cls, accent: str) -> str:
+        if not re.fullmatch(r"#[0-9a-fA-F]{6}", accent):
+            raise ValueError("accent must be a colour like #5f6b73")
+        return accent
+
+    @field_validator("logo")
+    @classmethod
+    def _plain_logo(cls, value: str | None) -> str | None:
+        _no_control_characters(value, "the file name")
+        return value
 
 
 class Classes(_Table):
@@ -74,6 +102,13 @@ class Classes(_Table):
             raise ValueError("the two truth classes must differ")
         if self.positive not in self.labels:
             raise ValueError(f"positive class {self.positive!r} is not one of labels {self.labels}")
+        for label in self.labels:
+            if not label.strip():
+                raise ValueError("a truth class label is blank")
+            if label == ABSTAIN:
+                raise ValueError(f"{ABSTAIN!r} is the abstention, not a truth class")
+        if _fold(self.labels[0]) == _fold(self.labels[1]):
+            raise ValueError("the two truth classes differ only by case or spaces")
         return self
 
     @property
@@ -139,7 +174,7 @@ class Scoring(_Table):
         description="Below this many errors, insight indices are flagged as unstable (default "
         "from the simulation in docs/metacognition.md).",
     )
-    seed: int = 20240601
+    seed: int = Field(default=20240601, ge=0)
 
 
 class Files(_Table):
@@ -151,6 +186,26 @@ class Files(_Table):
     estimates: str | None = None
     layout: Literal["long", "wide"] = "long"
     sheet: str | None = Field(default=None, description="Sheet to read in xlsx files.")
+
+    @field_validator("items", "responses", "participants", "estimates", "sheet")
+    @classmethod
+    def _plain_name(cls, value: str | None) -> str | None:
+        _no_control_characters(value, "the name")
+        if value is not None and not value.strip():
+            raise ValueError("the name is blank; leave the key out to use the default")
+        return value
+
+
+class Limits(_Table):
+    """[limits]: the most reportgen reads from one table file. A file beyond a limit is refused,
+    and the message names the key here that would raise it. The ceilings keep the guards useful:
+    beyond them a workbook could exhaust memory before it is refused."""
+
+    max_rows: int = Field(default=200_000, ge=1, le=5_000_000)
+    max_cells: int = Field(default=5_000_000, ge=1, le=100_000_000)
+    max_file_mib: int = Field(default=256, ge=1, le=4096)
+    max_unpacked_mib: int = Field(default=512, ge=1, le=16384)
+    max_compression_ratio: float = Field(default=100.0, ge=2.0, le=10_000.0)
 
 
 class Columns(_Table):
@@ -166,6 +221,27 @@ class Columns(_Table):
     estimate: str = "estimate"
     when: str = "when"
 
+    @model_validator(mode="after")
+    def _distinct_in_each_file(self) -> Columns:
+        files = {
+            "items": ("item", "truth"),
+            "responses": ("participant", "item", "decision", "confidence"),
+            "participants": ("participant", "name", "organisation"),
+            "estimates": ("participant", "estimate", "when"),
+        }
+        for file, keys in files.items():
+            by_name: dict[str, list[str]] = {}
+            for key in keys:
+                by_name.setdefault(getattr(self, key).strip(), []).append(key)
+            for name, shared in by_name.items():
+                if len(shared) > 1:
+                    raise ValueError(f"{' and '.join(shared)} both name the column {name!r} of "
+                                     f"the {file} table; each needs its own column")
+            for key in keys:
+                if not getattr(self, key).strip():
+                    raise ValueError(f"the column name for {key} is blank")
+        return self
+
 
 class Wide(_Table):
     """[wide]: the column patterns of a wide responses sheet; ``{item}`` stands for the item id."""
@@ -176,8 +252,8 @@ class Wide(_Table):
     @model_validator(mode="after")
     def _has_placeholder(self) -> Wide:
         for pattern in (self.decision, self.confidence):
-            if "{item}" not in pattern:
-                raise ValueError(f"pattern {pattern!r} must contain {{item}}")
+            if pattern.count("{item}") != 1:
+                raise ValueError(f"pattern {pattern!r} must contain {{item}} exactly once")
         if self.decision == self.confidence:
             raise ValueError("decision and confidence patterns must differ")
         return self
@@ -222,6 +298,7 @@ class RoundConfig(_Table):
         default_factory=lambda: {"same": "same", "different": "different",
                                  "inconclusive": ABSTAIN},
         description="decision label -> truth class, or 'inconclusive' for an abstention",
+        validate_default=True,
     )
     confidence: Confidence = Confidence()
     scoring: Scoring = Scoring()
@@ -229,21 +306,39 @@ class RoundConfig(_Table):
     columns: Columns = Columns()
     wide: Wide = Wide()
     criteria: tuple[Criterion, ...] = ()
+    limits: Limits = Limits()
 
-    @model_validator(mode="after")
-    def _consistent(self) -> RoundConfig:
-        targets = set(self.classes.labels) | {ABSTAIN}
-        for label, target in sorted(self.decisions.items()):
+    @field_validator("decisions")
+    @classmethod
+    def _decisions_consistent(cls, decisions: dict[str, str],
+                              info: ValidationInfo) -> dict[str, str]:
+        classes = info.data.get("classes")
+        if not isinstance(classes, Classes):
+            return decisions  # [classes] is invalid, and reported as such
+        targets = set(classes.labels) | {ABSTAIN}
+        folded: dict[str, str] = {}
+        for label, target in sorted(decisions.items()):
+            if not label.strip():
+                raise ValueError("a decision label is blank: a blank cell would be read as it")
+            twin = folded.setdefault(_fold(label), label)
+            if twin != label:
+                raise ValueError(f"decision labels {twin!r} and {label!r} differ only by case or "
+                                 "spaces; give each a distinct label")
             if target not in targets:
                 raise ValueError(
                     f"decision {label!r} maps to {target!r}, which is neither a declared class "
-                    f"({', '.join(self.classes.labels)}) nor {ABSTAIN!r}"
+                    f"({', '.join(classes.labels)}) nor {ABSTAIN!r}"
                 )
-        for cls in self.classes.labels:
-            if cls not in self.decisions.values():
-                raise ValueError(f"no decision label maps to class {cls!r}")
-        ids = [c.id for c in self.criteria]
+        for label in classes.labels:
+            if label not in decisions.values():
+                raise ValueError(f"no decision label maps to class {label!r}")
+        return decisions
+
+    @field_validator("criteria")
+    @classmethod
+    def _unique_ids(cls, criteria: tuple[Criterion, ...]) -> tuple[Criterion, ...]:
+        ids = [c.id for c in criteria]
         dupes = sorted({i for i in ids if ids.count(i) > 1})
         if dupes:
             raise ValueError(f"criterion ids must be unique; repeated: {', '.join(dupes)}")
-        return self
+        return criteria

@@ -56,13 +56,23 @@ __all__ = ["ReadLimits", "Table", "find_table", "read_table"]
 
 @dataclass(frozen=True)
 class ReadLimits:
-    """The most reportgen reads from one table file; anything larger is refused with a message."""
+    """The most reportgen reads from one table file; anything larger is refused with a message.
+
+    A round sets them in the ``[limits]`` table of round.toml (``rounds.schema.Limits``); every
+    refusal names the key that would raise the limit.
+    """
 
     max_rows: int = 200_000
     max_cells: int = 5_000_000
     max_uncompressed_bytes: int = 512 * 1024 * 1024
     max_compression_ratio: float = 100.0
     max_file_bytes: int = 256 * 1024 * 1024
+    setting: str = ""
+    """Where a provider changes the limits, with ``{key}`` for the limit's key (e.g. ``"[limits]
+    {key} in round.toml"``); named in every refusal. Empty: not named."""
+
+    def hint(self, key: str) -> str:
+        return f" (set by {self.setting.format(key=key)})" if self.setting else ""
 
 
 @dataclass(frozen=True)
@@ -204,8 +214,13 @@ def _explicit_table(folder: Path, explicit: str, log: ProblemLog) -> Path | None
     if suffix not in _READABLE:
         log.error(explicit, _wrong_format_message(suffix))
         return None
-    if not candidate.is_file():
-        what = "is a folder, not a file" if candidate.is_dir() else "is not in the round folder"
+    try:
+        is_file, is_dir = candidate.is_file(), candidate.is_dir()
+    except (OSError, ValueError) as exc:  # a name too long for the file system, say
+        log.error(explicit, f"{named} cannot be opened ({getattr(exc, 'strerror', None) or exc})")
+        return None
+    if not is_file:
+        what = "is a folder, not a file" if is_dir else "is not in the round folder"
         log.error(explicit, f"{named} {what}")
         return None
     return candidate
@@ -214,7 +229,7 @@ def _explicit_table(folder: Path, explicit: str, log: ProblemLog) -> Path | None
 def _inside(folder: Path, candidate: Path) -> bool:
     try:
         return candidate.resolve().is_relative_to(folder.resolve())
-    except (OSError, RuntimeError):  # a symlink loop
+    except (OSError, RuntimeError, ValueError):  # a symlink loop, a NUL in the name
         return False
 
 
@@ -224,7 +239,8 @@ def _read_bytes(path: Path, limits: ReadLimits) -> bytes:
         if size > limits.max_file_bytes:
             raise _ReadError(
                 f"is {_mib(size)}, more than the {_mib(limits.max_file_bytes)} reportgen reads "
-                "from one file", allowed=f"at most {limits.max_file_bytes:,} bytes")
+                "from one file",
+                allowed=f"at most {limits.max_file_bytes:,} bytes{limits.hint('max_file_mib')}")
         return path.read_bytes()
     except OSError as exc:
         raise _ReadError(f"cannot be opened ({exc.strerror or exc})") from exc
@@ -263,9 +279,10 @@ def _build_table(grid: _Grid, digest: str, log: ProblemLog, limits: ReadLimits) 
     if len(filled) - 1 > limits.max_rows:
         raise _ReadError(f"has {len(filled) - 1:,} data rows, more than the {limits.max_rows:,} "
                          "reportgen reads", sheet=grid.sheet,
-                         allowed=f"at most {limits.max_rows:,} rows")
+                         allowed=f"at most {limits.max_rows:,} rows{limits.hint('max_rows')}")
     header, header_row = grid.rows[filled[0]], grid.numbers[filled[0]]
     data = [grid.rows[i] for i in filled[1:]]
+    _refuse_title_row(grid, header, header_row, data)
     numbers = tuple(grid.numbers[i] for i in filled[1:])
     width = len(header)
     if grid.ragged:
@@ -286,6 +303,19 @@ def _build_table(grid: _Grid, digest: str, log: ProblemLog, limits: ReadLimits) 
         places = {grid.first_column + j: name for j, name in zip(keep, columns, strict=True)}
         grid.after(table, places, log)
     return table
+
+
+def _refuse_title_row(grid: _Grid, header: Sequence[str], header_row: int,
+                      data: list[Sequence[str]]) -> None:
+    """A lone value above rows of several values is a title, not a header: refuse it with one
+    message, rather than one for every row or column it leaves without a header."""
+    values = [text for text in header if text.strip()]
+    below = [sum(1 for text in row if text.strip()) for row in data[:3]]
+    if len(values) == 1 and below and min(below) > 1:
+        raise _ReadError(f"the first row that is not empty holds a single value, above rows of "
+                         f"{max(below)} values: if it is a title, delete it (and any other rows "
+                         "above the column headers), so that the headers are the first row",
+                         sheet=grid.sheet, row=header_row, value=values[0])
 
 
 def _picker(keep: list[int]) -> Callable[[Sequence[str]], tuple[str, ...]]:
@@ -383,10 +413,10 @@ def _csv_grid(data: bytes, file: str, log: ProblemLog, limits: ReadLimits) -> _G
     if len(rows) >= cap:
         raise _ReadError(f"has more than {cap - 1:,} lines; reportgen reads at most "
                          f"{limits.max_rows:,} data rows",
-                         allowed=f"at most {limits.max_rows:,} rows")
+                         allowed=f"at most {limits.max_rows:,} rows{limits.hint('max_rows')}")
     if sum(map(len, rows)) > limits.max_cells:
         raise _ReadError(f"has more than {limits.max_cells:,} cells, the most reportgen reads",
-                         allowed=f"at most {limits.max_cells:,} cells")
+                         allowed=f"at most {limits.max_cells:,} cells{limits.hint('max_cells')}")
     return _Grid(file=file, sheet=None, rows=rows, numbers=numbers, ragged=True)
 
 
@@ -660,7 +690,8 @@ def _open_zip(data: bytes, limits: ReadLimits) -> zipfile.ZipFile:
         raise _ReadError(
             f"would unpack to {_mib(total)}, more than the {_mib(limits.max_uncompressed_bytes)} "
             "reportgen allows (a damaged file, or a 'zip bomb')",
-            allowed=f"at most {limits.max_uncompressed_bytes:,} bytes unpacked")
+            allowed=f"at most {limits.max_uncompressed_bytes:,} bytes unpacked"
+            f"{limits.hint('max_unpacked_mib')}")
     for info in [*infos, None]:
         size, small = (total, packed) if info is None else (info.file_size, info.compress_size)
         ratio = size / max(small, 1)
@@ -668,7 +699,8 @@ def _open_zip(data: bytes, limits: ReadLimits) -> zipfile.ZipFile:
             raise _ReadError(
                 f"is compressed {ratio:,.0f} times, more than the "
                 f"{limits.max_compression_ratio:,.0f} times a real workbook reaches (a damaged "
-                "file, or a 'zip bomb')", allowed=f"at most {limits.max_compression_ratio:,.0f}:1")
+                "file, or a 'zip bomb')", allowed=f"at most {limits.max_compression_ratio:,.0f}:1"
+                f"{limits.hint('max_compression_ratio')}")
     return archive
 
 
@@ -738,7 +770,7 @@ def _parts(archive: zipfile.ZipFile, data: bytes) -> dict[str, bytes]:
         info = archive.getinfo(name)
         if info.file_size > _OWN_XML_MAX:
             raise _ReadError(_NOT_READABLE)
-        parts[name] = b"".join(_inflate(data, info))
+        parts[name] = b"".join(_without_dtd(_inflate(data, info), name, None))
     return parts
 
 
@@ -781,10 +813,30 @@ def _verify(archive: zipfile.ZipFile, data: bytes, sheets: list[_Sheet],
     by_member = {s.member: s for s in sheets if s.member is not None}
     for info in archive.infolist():
         sheet = by_member.get(info.filename)
+        chunks = _without_dtd(_inflate(data, info), info.filename, sheet)
         if sheet is not None:
-            _scan_xml(_inflate(data, info), sheet.scan.add)
+            _scan_xml(chunks, sheet.scan.add)
         else:
-            _check_shared_strings(_inflate(data, info), limits)
+            _check_shared_strings(chunks, limits)
+
+
+_DTD = b"<!DOCTYPE"
+
+
+def _without_dtd(chunks: Iterable[bytes], part: str, sheet: _Sheet | None) -> Iterator[bytes]:
+    """Pass the chunks on, refusing a part with a document type declaration: spreadsheet
+    programs never write one, and it is how entity-expansion ("billion laughs") and external-
+    entity attacks are carried. (calamine does not expand entities and openpyxl reads through
+    defusedxml, so this turns a refusal deep in a reader into a plain message.)"""
+    tail = b""
+    for chunk in chunks:
+        if _DTD in tail + chunk[: len(_DTD)] or _DTD in chunk:
+            raise _ReadError(f"contains a document type declaration (<!DOCTYPE …>) in its part "
+                             f"{part}, which spreadsheet programs never write and which can "
+                             "carry an XML entity attack: open it in Excel and save it again",
+                             sheet=sheet.name if sheet is not None else None)
+        tail = chunk[-len(_DTD):]
+        yield chunk
 
 
 def _scan_xml(chunks: Iterable[bytes], scan: Callable[[bytes], None], end: bytes = b">") -> None:
@@ -870,11 +922,12 @@ def _check_size(sheet: _Sheet, limits: ReadLimits) -> None:
     if height > limits.max_rows + 1:
         raise _ReadError(f"has cells in use on {height:,} rows ({span}), more than the "
                          f"{limits.max_rows:,} reportgen reads{stray}", sheet=sheet.name,
-                         allowed=f"at most {limits.max_rows:,} rows")
+                         allowed=f"at most {limits.max_rows:,} rows{limits.hint('max_rows')}")
     if height * width > limits.max_cells:
         raise _ReadError(f"has cells in use across {height:,} rows x {width:,} columns ({span}), "
                          f"more than the {limits.max_cells:,} cells reportgen reads{stray}",
-                         sheet=sheet.name, allowed=f"at most {limits.max_cells:,} cells")
+                         sheet=sheet.name,
+                         allowed=f"at most {limits.max_cells:,} cells{limits.hint('max_cells')}")
 
 
 # --------------------------------------------------------------------------- xlsx: formulas, errors
