@@ -16,7 +16,7 @@ $(STAMP): pyproject.toml
 setup: $(STAMP)
 
 demo: $(STAMP)
-	$(BIN)/reportgen demo -o demo-output
+	$(BIN)/reportgen demo -o demo-output --jobs 2
 
 test: $(STAMP)
 	$(BIN)/python -m pytest -q
