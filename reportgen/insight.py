@@ -49,7 +49,8 @@ def insight_columns(tables: Tables, levels: Array, scoring: Scoring,
                 cols["m_ratio"][p] = fit.m_ratio
             if n_boot > 0:
                 ci = meta_d_interval(tables.rating_noise[p], tables.rating_signal[p],
-                                     n_boot=n_boot, seed=participant_seed(scoring.seed, code))
+                                     n_boot=n_boot, seed=participant_seed(scoring.seed, code),
+                                     point=fit)
                 for name in ("meta_d_low", "meta_d_high", "m_ratio_low", "m_ratio_high"):
                     value = getattr(ci, name)
                     cols[name][p] = np.nan if value is None else value

@@ -523,6 +523,7 @@ def meta_d_interval(
     seed: int = 0,
     level: float = 0.95,
     pad: bool = True,
+    point: MetaDResult | None = None,
 ) -> MetaDInterval:
     """Percentile interval for meta-d′ and the M-ratio by a stratified (per truth class) bootstrap.
 
@@ -536,7 +537,8 @@ def meta_d_interval(
     Fewer than half the replicates usable: both intervals ``None``.
     """
     noise, signal = _as_table(noise_counts, signal_counts)
-    point = fit_meta_d(noise, signal, pad=pad)
+    if point is None:  # callers that already fitted the table pass the fit, to save a refit
+        point = fit_meta_d(noise, signal, pad=pad)
     if point.meta_d is None:
         return MetaDInterval(None, None, None, None, level, n_boot)
     rng = np.random.default_rng(seed)
