@@ -24,6 +24,7 @@ test: $(STAMP)
 lint: $(STAMP)
 	$(BIN)/ruff check reportgen tests scripts benchmarks
 	$(BIN)/mypy
+	$(BIN)/lint-imports --no-cache
 
 golden: $(STAMP)
 	$(BIN)/python scripts/regenerate_golden.py

@@ -35,11 +35,11 @@ import vl_convert  # noqa: E402
 import weasyprint  # noqa: E402
 from pypdf import PdfReader  # noqa: E402
 
+from reportgen.render import certificate as html_mod  # noqa: E402
 from reportgen.render import charts  # noqa: E402
-from reportgen.render import html as html_mod  # noqa: E402
 from reportgen.render.batch import render_documents  # noqa: E402
 from reportgen.render.pdf import _resources, html_to_pdf  # noqa: E402
-from reportgen.results import RoundResults  # noqa: E402
+from reportgen.results.model import RoundResults  # noqa: E402
 from reportgen.settings import Settings  # noqa: E402
 
 IMG = re.compile(r'<img class="chart" src="[^"]+" alt="[^"]*" width="(\d+)" height="(\d+)"[^>]*>')

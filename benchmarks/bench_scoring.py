@@ -11,14 +11,17 @@ sets their resamples (the default config uses 200; 0 times the rest of scoring a
 from __future__ import annotations
 
 import argparse
+import sys
 import tempfile
 import time
 from pathlib import Path
 
+sys.path.insert(0, str(Path(__file__).resolve().parent.parent))  # scripts.simulator
+
 from reportgen.pipeline import load
-from reportgen.scoring import score_round
+from reportgen.scoring.score import score_round
 from reportgen.settings import ReportSettings, Settings
-from reportgen.simulate import simulate_round, write_round
+from scripts.simulator import simulate_round, write_round
 
 
 def _time(folder: Path, settings: Settings, repeat: int) -> tuple[float, float]:

@@ -31,7 +31,7 @@ from reportgen.errors import OutputError
 
 MANIFEST = "manifest.json"
 MANIFEST_FORMAT = "reportgen-manifest/1"
-_PACKAGES = ("reportgen", "numpy", "scipy", "pandas", "pydantic", "openpyxl", "python-calamine",
+_PACKAGES = ("reportgen", "numpy", "scipy", "pydantic", "openpyxl", "python-calamine",
              "defusedxml", "jinja2", "weasyprint", "altair", "vl-convert-python")
 
 

@@ -12,9 +12,10 @@ from collections.abc import Callable, Iterable, Iterator, Mapping
 from dataclasses import dataclass
 from pathlib import Path
 
-from reportgen import history
+from reportgen import archive as history
+from reportgen.archive.trend import build_trend
+from reportgen.catalogue import KNOWN_METRICS
 from reportgen.errors import InputError, Problem
-from reportgen.names import KNOWN_METRICS
 from reportgen.output import ManifestInput, Staging, manifest, sha256_bytes, sha256_file
 from reportgen.render.batch import output_names, render_documents
 from reportgen.render.pdf import html_to_pdf
@@ -22,13 +23,12 @@ from reportgen.render.results_json import results_json
 from reportgen.render.trend import render_trend_html
 from reportgen.render.workbook import results_workbook
 from reportgen.resources import config_dir, sample_rounds_dir
-from reportgen.results import RoundResults
+from reportgen.results.model import RoundResults
 from reportgen.rounds.load import load_round
 from reportgen.rounds.model import Round
 from reportgen.rounds.tables import ReadLimits
-from reportgen.scoring import score_round
+from reportgen.scoring.score import score_round
 from reportgen.settings import Settings, load_settings
-from reportgen.trend import build_trend
 
 TREND_SEED = 20240601
 

@@ -4,7 +4,8 @@
     .venv/bin/python scripts/make_sample_rounds.py --out DIR  # somewhere else
 
 Seeded and free of wall-clock time: running it twice gives byte-identical files.
-See reportgen/simulate.py for the latent model and sample_rounds/README.md for the scenario.
+See scripts/simulator/__init__.py for the latent model and sample_rounds/README.md for the
+scenario.
 """
 
 from __future__ import annotations
@@ -16,7 +17,7 @@ from pathlib import Path
 REPO = Path(__file__).resolve().parent.parent
 sys.path.insert(0, str(REPO))
 
-from reportgen.simulate import (  # noqa: E402
+from scripts.simulator import (  # noqa: E402
     SAMPLE_SEED,
     sample_rounds,
     summary,

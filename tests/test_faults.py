@@ -37,7 +37,7 @@ import pytest
 
 from reportgen.cli import main
 from reportgen.output import sha256_file, verify
-from scripts.make_hostile_inputs import base, csv_text, responses_rows
+from scripts.hostile import base, csv_text, responses_rows
 
 pytestmark = pytest.mark.slow
 
@@ -46,7 +46,7 @@ SEEDS = range(8)
 _DRIVER = r"""
 import json, os, signal, sys, time
 from reportgen import cli, output, pipeline  # noqa: F401  (imported once, before forking)
-import reportgen.scoring, reportgen.render.results_json, reportgen.render.workbook  # noqa
+import reportgen.scoring.score, reportgen.render.results_json, reportgen.render.workbook  # noqa
 
 STEPS = [(os, "replace"), (os, "fsync"), (os, "mkdir"), (os, "unlink"), (os, "rmdir"),
          (output, "_exchange")]

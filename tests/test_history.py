@@ -1,4 +1,4 @@
-"""The archive (reportgen.history): round trip, idempotence, versions, concurrency, schema
+"""The archive (reportgen.archive): round trip, idempotence, versions, concurrency, schema
 migration, renames and the queries the certificate and the trend report use.
 
 The archive of the three sample rounds is built once (scored with bootstrap=0 for speed); tests
@@ -21,16 +21,15 @@ from typing import Any
 import numpy as np
 import pytest
 
-from reportgen import history
+from reportgen import archive as history
 from reportgen.errors import InputError
 from reportgen.metrics.insight import type2_auroc
 from reportgen.metrics.metad import fit_meta_d
 from reportgen.metrics.sdt import sdt_loglinear
 from reportgen.pipeline import score_folder
-from reportgen.render.html import PreviousRound
 from reportgen.render.results_json import participant_json
 from reportgen.resources import sample_rounds_dir
-from reportgen.results import RoundResults
+from reportgen.results.model import PreviousRound, RoundResults
 from reportgen.settings import ReportSettings, Settings
 from tests.conftest import PARTICIPANTS, ROUND_TOML, responses_csv
 

@@ -8,7 +8,7 @@ from pathlib import Path
 
 import pytest
 
-from reportgen import history
+from reportgen import archive as history
 from reportgen.cli import main
 from tests.conftest import ROUND_TOML, responses_csv
 

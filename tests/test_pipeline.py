@@ -44,7 +44,7 @@ def test_results_json_shape(scored_twice: tuple[Path, Path]) -> None:
                 "criteria", "overall"):
         assert key in first, key
     for p in doc["participants"]:
-        for key, value in p.items():  # DESIGN §8: null always comes with a reason
+        for key, value in p.items():  # docs/design.md §8: null always comes with a reason
             if value is None and not key.endswith(("_ci", "_note")):
                 assert p.get(f"{key}_note"), (p["participant"], key)
 

@@ -22,7 +22,7 @@ from statsmodels.stats.proportion import proportion_confint
 
 from reportgen.pipeline import score_folder
 from reportgen.render.results_json import results_json
-from reportgen.results import RoundResults
+from reportgen.results.model import RoundResults
 from reportgen.settings import ReportSettings, Settings
 from tests.conftest import _ANSWERS, ITEMS, ROUND_TOML, responses_csv
 

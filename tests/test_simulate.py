@@ -1,4 +1,4 @@
-"""The seeded simulator and the committed sample rounds it generates (reportgen/simulate.py)."""
+"""The seeded simulator and the committed sample rounds it generates (scripts/simulator/)."""
 
 from __future__ import annotations
 
@@ -14,7 +14,7 @@ import pytest
 from python_calamine import CalamineWorkbook
 
 from reportgen.rounds.schema import RoundConfig
-from reportgen.simulate import (
+from scripts.simulator import (
     NEVER_ERRS,
     SAMPLE_LAYOUTS,
     SAMPLE_YEARS,

@@ -1,4 +1,4 @@
-"""The trend of one examiner (reportgen.trend) and its report (reportgen.render.trend).
+"""The trend of one examiner (reportgen.archive.trend) and its report (reportgen.render.trend).
 
 Reference checks name their source: statsmodels for the two-proportion test and Newcombe's
 interval, the Gourevitch–Galanter formula written out for the d′ difference, a fit on the summed
@@ -18,21 +18,26 @@ import pytest
 from scipy import stats
 from statsmodels.stats.proportion import confint_proportions_2indep, proportions_ztest
 
-from reportgen import history
-from reportgen.errors import InputError
-from reportgen.metrics.metad import fit_meta_d, meta_d_interval
-from reportgen.render.trend import render_trend_html, render_trend_pdf, trend_context
-from reportgen.settings import Settings
-from reportgen.trend import (
-    ONE_ROUND_NOTE,
+from reportgen import archive as history
+from reportgen.archive.trend import (
     Trend,
     build_trend,
-    change_reading,
     d_prime_difference,
     standing,
     trend_from_history,
     two_proportion_test,
 )
+from reportgen.errors import InputError
+from reportgen.metrics.metad import fit_meta_d, meta_d_interval
+from reportgen.render.trend import render_trend_html, render_trend_pdf, trend_context
+from reportgen.render.wording.statements import criterion_detail
+from reportgen.render.wording.trend import (
+    ONE_ROUND_NOTE,
+    change_reading,
+    moved_sentence,
+    pooled_reading,
+)
+from reportgen.settings import Settings
 from tests.test_history import record_all, sample_results
 
 GOLDEN = Path(__file__).resolve().parent / "golden" / "trend.html"
@@ -104,7 +109,7 @@ def test_pooling_without_errors_is_not_estimable_with_the_reason(archive: Path) 
     trend = build_trend(archive, "E0107", last_n=None, seed=1, n_boot=50)  # never errs
     assert trend.pooled.meta_d.value is None
     assert trend.pooled.meta_d.note == "no errors"
-    assert "cannot be estimated (no errors)" in trend.pooled.reading
+    assert "cannot be estimated (no errors)" in pooled_reading(trend.pooled)
 
 
 def test_relative_insight_reading_follows_the_interval(trend_0012: Trend) -> None:
@@ -113,7 +118,7 @@ def test_relative_insight_reading_follows_the_interval(trend_0012: Trend) -> Non
     expected_word = ("less than" if p.expected_type2_auroc > p.type2_auroc.high else
                      "more than" if p.type2_auroc.low is not None
                      and p.expected_type2_auroc < p.type2_auroc.low else "about as well as")
-    assert f"separated right from wrong {expected_word}" in p.reading
+    assert f"separated right from wrong {expected_word}" in pooled_reading(p)
 
 
 # ---------------------------------------------------------------------------------------------
@@ -198,14 +203,16 @@ def test_changes_compare_the_latest_with_the_previous_round(archive: Path,
     assert (fp.earlier_round, fp.latest_round) == ("FIC-2025", "FIC-2026")
     for change in trend_0012.changes:
         assert change.test.p_value is not None and change.test.p_value > 0.05
-        assert "not evidence of a change" in change.reading
-        assert "improv" not in change.reading and "worse" not in change.reading
+        reading = change_reading(change)
+        assert "not evidence of a change" in reading
+        assert "improv" not in reading and "worse" not in reading
 
 
 def test_a_difference_beyond_chance_is_read_as_a_possible_change() -> None:
     t = two_proportion_test(1, 30, 9, 30)
     assert t.p_value is not None and t.p_value < 0.05
-    text = change_reading("False-positive rate", "30.0 %", "3.3 %", "R1", "R2", t)
+    text = moved_sentence("False-positive rate", "30.0 %", "3.3 %", "R1", "R2", t.difference,
+                          t.p_value, t.note)
     assert "fell from 30.0 % in R1 to 3.3 % in R2" in text
     assert "may be a real change" in text and "not evidence" not in text
 
@@ -242,7 +249,9 @@ def test_standing_uses_the_group_values_stored_at_record_time(trend_0012: Trend)
         expected = (own.metrics["accuracy"].value - x_star) / s_star
         assert point.standing.z == pytest.approx(expected, rel=1e-10)
         criterion = next(c for c in own.criteria if c.id == "C3")  # the round's own z rule
-        assert f"z = {expected:+.2f}" in criterion.detail
+        rule = next(c for c in results.round.config.criteria if c.id == "C3")
+        detail = criterion_detail(criterion, rule, results.group.robust)
+        assert f"z = {expected:+.2f}" in detail
 
 
 # ---------------------------------------------------------------------------------------------
@@ -252,7 +261,8 @@ def test_standing_uses_the_group_values_stored_at_record_time(trend_0012: Trend)
 def test_a_participant_in_only_one_round(archive: Path) -> None:
     trend = build_trend(archive, "E0472", last_n=None, seed=1, n_boot=0)
     assert [p.round_id for p in trend.points] == ["FIC-2026"]
-    assert trend.changes == () and trend.change_note == ONE_ROUND_NOTE
+    assert trend.changes == ()
+    assert ONE_ROUND_NOTE in render_trend_html(trend, Settings())
     assert trend.pooled.round_ids == ("FIC-2026",)
     html = render_trend_html(trend, Settings())
     assert "a change cannot be assessed" in html

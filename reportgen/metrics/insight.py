@@ -1,6 +1,6 @@
 """Metacognitive insight: does confidence separate right answers from wrong ones?
 
-Conclusive answers only (DESIGN §3). Inputs are counts by confidence level on the last axis,
+Conclusive answers only (docs/design.md §3). Inputs are counts by confidence level on the last axis,
 ordered low → high confidence; ``correct_counts`` and ``wrong_counts`` have shape (..., K).
 
 References: Fleming & Lau (2014), *Front Hum Neurosci* 8:443 (type-2 ROC);

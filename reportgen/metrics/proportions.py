@@ -1,4 +1,6 @@
-"""Binomial proportions with a confidence interval (DESIGN §3: every rate carries a 95 % interval).
+"""Binomial proportions with a confidence interval.
+
+Every rate carries a 95 % interval (docs/design.md §3).
 
 Two intervals are offered:
 

@@ -24,6 +24,11 @@ SD_FACTOR = 1.134  # corrects the sd of values winsorised at ±1.5 s*, rounded a
 WINSOR = 1.5
 
 
+MIN_GROUP = 3
+"""Fewest finite values from which a group's x* and s* are formed for z-scores (common practice:
+Algorithm A of ISO 13528 needs a few values to be meaningful; with fewer, z is not assessable)."""
+
+
 @dataclass(frozen=True)
 class RobustEstimate:
     """Robust average x* and robust standard deviation s*; fields have the leading shape (...).
@@ -42,7 +47,7 @@ class RobustEstimate:
     def reason(self) -> ObjectArray:
         """Why z-scores cannot be formed from this estimate, else None."""
         out = np.full(self.n.shape, None, dtype=object)
-        out[self.sd == 0] = "robust standard deviation is zero"
+        out[self.sd == 0] = "the group's robust standard deviation is 0"
         out[self.n == 0] = "no values"
         return out
 

@@ -233,69 +233,6 @@ def glejser_test(score: ArrayLike, estimate: ArrayLike) -> GlejserResult | None:
 # --------------------------------------------------------------------------- plain language
 
 
-def _p_text(p: float) -> str:
-    return "p < 0.001" if p < 0.001 else f"p = {p:.3f}"
-
-
-def _quarter_sentence(row: QuartileRow, weakest: bool) -> str | None:
-    if row.gap is None or row.inside_null is None or row.null_high is None:
-        return None
-    who = "The weakest quarter's" if weakest else "The strongest quarter's"
-    over = row.gap > 0
-    direction = "exceed their scores" if over else "fall short of their scores"
-    if row.inside_null:
-        classic = over == weakest  # weakest over, strongest under: the regression pattern
-        why = (
-            "this pattern is expected from regression to the mean alone."
-            if classic
-            else "this is what estimates unrelated to score would show."
-        )
-        return f"{who} estimates {direction}, but by no more than shuffled estimates do: {why}"
-    assert row.mean_estimate is not None  # implied by inside_null not being None
-    higher = row.mean_estimate > row.null_high
-    comparison = "higher" if higher else "lower"
-    if higher == weakest:  # weakest above the band, or strongest below it
-        return (
-            f"{who} estimates are {comparison} than shuffled estimates would give: more than "
-            "regression to the mean explains."
-        )
-    return (
-        f"{who} estimates are {comparison} than shuffled estimates would give: the estimates "
-        f"partly reflected their {comparison} scores."
-    )
-
-
-def quartile_reading(view: QuartileView) -> str:
-    """Plain-language reading of a quartile view that never claims what the null band explains."""
-    if view.n < 4:
-        return "Too few self-estimates for a quartile view."
-    sentences = [
-        s
-        for s in (_quarter_sentence(view.rows[0], True), _quarter_sentence(view.rows[-1], False))
-        if s is not None
-    ]
-    g = view.glejser
-    if g is None or g.slope_p is None:
-        sentences.append("The accuracy of the estimates could not be related to score.")
-    elif g.slope_p < SIGNIFICANCE:
-        who = "lower" if g.slope < 0 else "higher"
-        sentences.append(
-            f"The estimates of {who} scorers miss their scores by more (Glejser test, "
-            f"{_p_text(g.slope_p)})."
-        )
-    else:
-        sentences.append(
-            "There is no evidence that the size of the misestimate depends on score (Glejser test, "
-            f"{_p_text(g.slope_p)})."
-        )
-    if g is not None and g.quadratic_p is not None and g.quadratic_p < SIGNIFICANCE:
-        sentences.append(
-            f"The size of the misestimate changes with score along a curve (quadratic term, "
-            f"{_p_text(g.quadratic_p)})."
-        )
-    return " ".join(sentences)
-
-
 # ------------------------------------------------------------------------- insight by ability
 
 

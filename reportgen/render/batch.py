@@ -34,8 +34,7 @@ from typing import TYPE_CHECKING
 from reportgen.errors import BuildError
 
 if TYPE_CHECKING:
-    from reportgen.render.html import PreviousRound
-    from reportgen.results import RoundResults
+    from reportgen.results.model import PreviousRound, RoundResults
     from reportgen.settings import Settings
 
 Progress = Callable[[int, int], None]
@@ -129,7 +128,9 @@ def _init_worker(payload: bytes) -> None:
 
 
 def _render_one(job: _Job, index: int) -> tuple[int, bytes, bytes]:
-    from reportgen.render.html import logo_path, render_appendix, render_certificate
+    from reportgen.render.appendix import render_appendix
+    from reportgen.render.certificate import render_certificate
+    from reportgen.render.context import logo_path
     from reportgen.render.pdf import html_to_pdf
 
     results, settings = job.results, job.settings

@@ -27,7 +27,7 @@ import vl_convert
 from reportgen.errors import BuildError
 from reportgen.metrics.proportions import Method, proportion_ci
 from reportgen.resources import templates_dir
-from reportgen.results import LevelRow
+from reportgen.results.model import LevelRow
 
 FONT_FAMILY = "DejaVu Sans"
 SCALE = 2

@@ -1,105 +1,61 @@
 """results.json: the round block, the group, the items and one object per participant.
 
-Metric keys are DESIGN §3's names. A metric that is not estimable is ``null`` with a sibling
-``<name>_note`` giving the reason; an interval is ``<name>_ci: [low, high]``.
+The records come from :mod:`reportgen.results.records` (numbers and reason phrases); this module
+adds the statements a reader of the file expects beside them (the overall verdict, each
+criterion's detail, why an item is flagged), made by :mod:`reportgen.render.wording`.
 """
 
 from __future__ import annotations
 
 import json
-import math
-from dataclasses import asdict
 from typing import Any
 
 from reportgen import __version__
-from reportgen.results import Metric, ParticipantResult, RoundResults
+from reportgen.render.wording import statements
+from reportgen.results.model import ParticipantResult, RoundResults
+from reportgen.results.records import (
+    group_json,
+    item_json,
+    number,
+    participant_json,
+    round_json,
+)
 
 FORMAT = "reportgen-results/1"
 
 
-def _num(x: float | None) -> float | None:
-    if x is None or not math.isfinite(x):
-        return None
-    return float(f"{x:.12g}")
-
-
-def _metric(name: str, m: Metric, into: dict[str, Any]) -> None:
-    into[name] = _num(m.value)
-    if m.low is not None or m.high is not None:
-        into[f"{name}_ci"] = [_num(m.low), _num(m.high)]
-    if m.note is not None:
-        into[f"{name}_note"] = m.note
-
-
-def participant_json(results: RoundResults, p: ParticipantResult) -> dict[str, Any]:
-    out: dict[str, Any] = {"participant": p.code}
-    if results.round.identities is not None:
-        ident = results.round.identity(p.code)
-        out["name"], out["organisation"] = ident.name, ident.organisation
-    out.update(p.counts)
-    for name, metric in p.metrics.items():
-        _metric(name, metric, out)
-    out["levels"] = [asdict(level) for level in p.levels]
-    out["criteria"] = [
-        {**asdict(c), "value": _num(c.value)} for c in p.criteria
-    ]
-    out["rating_table"] = {"different_source": list(p.rating_noise),
-                           "same_source": list(p.rating_signal)}
-    out["overall"] = p.overall
-    out["overall_text"] = p.overall_text
-    if results.round.estimates is not None and p.code in results.round.estimates:
-        out["self_estimate"] = _num(results.round.estimates[p.code])
+def _participant(results: RoundResults, p: ParticipantResult) -> dict[str, Any]:
+    rules = {c.id: c for c in results.round.config.criteria}
+    out: dict[str, Any] = {}
+    for key, value in participant_json(results, p).items():
+        if key == "criteria":
+            value = [
+                {"id": c.id, "label": c.label, "metric": c.metric, "value": number(c.value),
+                 "outcome": c.outcome,
+                 "detail": statements.criterion_detail(c, rules.get(c.id), results.group.robust)}
+                for c in p.criteria
+            ]
+        out[key] = value
+        if key == "overall":
+            out["overall_text"] = statements.overall_text(p)
     return out
 
 
-def round_json(results: RoundResults) -> dict[str, Any]:
-    rnd = results.round
-    cfg = rnd.config
-    return {
-        "id": cfg.round.id,
-        "scheme": cfg.round.scheme,
-        "title": cfg.round.title,
-        "opened": cfg.round.opened.isoformat(),
-        "closed": cfg.round.closed.isoformat(),
-        "issued": cfg.round.issued.isoformat(),
-        "status": cfg.round.status,
-        "provider": cfg.provider.model_dump(),
-        "classes": {"labels": list(cfg.classes.labels), "positive": cfg.classes.positive},
-        "decisions": dict(sorted(cfg.decisions.items())),
-        "confidence": cfg.confidence.model_dump(),
-        "scoring": cfg.scoring.model_dump(),
-        "criteria": [c.model_dump() for c in cfg.criteria],
-        "n_participants": rnd.n_participants,
-        "n_items": rnd.n_items,
-        "inputs": [{"name": s.name, "sha256": s.sha256} for s in rnd.sources],
-        "warnings": [str(w) for w in rnd.warnings],
-    }
+def _item(results: RoundResults, i: int) -> dict[str, Any]:
+    item = results.items[i]
+    record = item_json(item)
+    del record["strong_against"]
+    record["flag_reason"] = statements.flag_reason(item)
+    return record
 
 
 def results_json(results: RoundResults) -> bytes:
-    group = results.group
     doc = {
         "format": FORMAT,
         "software": {"reportgen": __version__},
         "round": round_json(results),
-        "group": {
-            "n_participants": group.n_participants,
-            "distributions": {
-                k: {f: _num(v) if isinstance(v, float) else v for f, v in asdict(d).items()}
-                for k, d in group.distributions.items()
-            },
-            "criteria_counts": group.criteria_counts,
-            "overall_counts": group.overall_counts,
-            "robust": {k: {"x_star": _num(v[0]), "s_star": _num(v[1])}
-                       for k, v in group.robust.items()},
-            "error_types": group.error_types,
-            "levels": [asdict(level) for level in group.levels],
-        },
-        "items": [
-            {**asdict(i), **{f: _num(getattr(i, f)) for f in
-                             ("difficulty", "discrimination", "inconclusive_rate")}}
-            for i in results.items
-        ],
-        "participants": [participant_json(results, p) for p in results.participants],
+        "group": group_json(results),
+        "items": [_item(results, i) for i in range(len(results.items))],
+        "participants": [_participant(results, p) for p in results.participants],
     }
     return (json.dumps(doc, indent=1, ensure_ascii=False, allow_nan=False) + "\n").encode()

@@ -1,4 +1,4 @@
-"""A trend (:class:`reportgen.trend.Trend`) -> the trend report as one HTML document (and PDF).
+"""A trend (:class:`reportgen.archive.trend.Trend`) -> the trend report as HTML (and PDF).
 
 Like the certificate, the context holds plain values, formatted text and chart data URIs, and
 the template is found on the search path (:mod:`reportgen.render.environment`). The report holds
@@ -10,20 +10,21 @@ the latest round it covers, so rendering twice gives the same bytes.
 from __future__ import annotations
 
 import hashlib
-from collections.abc import Callable, Sequence
+from collections.abc import Sequence
 from typing import Any
 
 import altair as alt
 import jinja2
 
-from reportgen import __version__
+from reportgen import __version__, catalogue
+from reportgen.archive.trend import ALPHA, ChangeTest, RoundPoint, Trend
 from reportgen.errors import BuildError
 from reportgen.render import charts, wording
 from reportgen.render.environment import environment
 from reportgen.render.pdf import html_to_pdf
-from reportgen.results import Metric
+from reportgen.render.wording import trend as trend_wording
+from reportgen.results.model import Metric
 from reportgen.settings import Settings
-from reportgen.trend import ALPHA, ChangeTest, RoundPoint, Trend, fmt_p
 
 TREND_TEMPLATE = "trend.html.j2"
 QUESTIONABLE_COLOUR = charts.WRONG_COLOUR
@@ -164,7 +165,7 @@ def trend_report_id(trend: Trend) -> str:
 
 
 def _cell(name: str, m: Metric) -> dict[str, Any]:
-    kind = "percent" if name in wording.RATES else "number"
+    kind = "percent" if name in catalogue.RATES else "number"
     return {"value": wording.fmt_value(name, m), "interval": wording.fmt_interval(m, kind),
             "note": m.note or "", "caution": bool(m.note and m.estimable),
             "has_interval": m.low is not None and m.high is not None,
@@ -200,8 +201,8 @@ def _change_rows(changes: Sequence[ChangeTest]) -> list[dict[str, Any]]:
     rows = []
     for c in changes:
         t = c.test
-        rate = c.metric in wording.RATES  # differences of rates in percentage points
-        fmt: Callable[[float | None], str] = wording.fmt_percent if rate else wording.fmt_number
+        rate = c.metric in catalogue.RATES  # differences of rates in percentage points
+        fmt = trend_wording.value_format(c.metric)
         scale, digits = (100.0, 1) if rate else (1.0, 2)
 
         def scaled(x: float | None, scale: float = scale) -> float | None:
@@ -214,9 +215,9 @@ def _change_rows(changes: Sequence[ChangeTest]) -> list[dict[str, Any]]:
             "interval": wording.fmt_interval(
                 Metric(scaled(t.difference), scaled(t.low), scaled(t.high)), "number",
                 digits=digits),
-            "p": fmt_p(t.p_value) if t.p_value is not None else wording.DASH,
+            "p": wording.fmt_p(t.p_value),
             "stands_out": t.p_value is not None and t.p_value < ALPHA,
-            "method": c.method, "reading": c.reading,
+            "method": c.method, "reading": trend_wording.change_reading(c),
         })
     return rows
 
@@ -232,7 +233,7 @@ def _pooled(trend: Trend) -> dict[str, Any]:
         "type2_auroc": _cell("type2_auroc", p.type2_auroc),
         "expected": wording.fmt_number(p.expected_type2_auroc),
         "has_expected": p.expected_type2_auroc is not None,
-        "n_boot": p.n_boot, "seed": p.seed, "reading": p.reading,
+        "n_boot": p.n_boot, "seed": p.seed, "reading": trend_wording.pooled_reading(p),
         "noise": list(p.noise), "signal": list(p.signal), "k": len(p.noise) // 2,
     }
 
@@ -262,11 +263,11 @@ def trend_context(trend: Trend, settings: Settings) -> dict[str, Any]:
         "span": (f"{first.round_id} to {last.round_id}" if len(trend.points) > 1
                  else first.round_id),
         "n_rounds": len(trend.points),
-        "summary": list(trend.summary),
+        "summary": list(trend_wording.summary(trend)),
         "rounds": _round_rows(trend),
         "standing": _standing_rows(trend),
         "changes": _change_rows(trend.changes),
-        "change_note": trend.change_note or "",
+        "change_note": "" if trend.changes else trend_wording.ONE_ROUND_NOTE,
         "latest_round": last.round_id,
         "previous_round": trend.points[-2].round_id if len(trend.points) > 1 else "",
         "pooled": _pooled(trend),

@@ -18,9 +18,10 @@ from openpyxl import Workbook
 from openpyxl.styles import Font
 from openpyxl.worksheet.worksheet import Worksheet
 
-from reportgen.methods import BY_NAME, METHODS
-from reportgen.render.results_json import round_json
-from reportgen.results import RoundResults
+from reportgen.catalogue import BY_NAME, METRICS
+from reportgen.render.wording import statements
+from reportgen.results.model import RoundResults
+from reportgen.results.records import round_json
 
 Cell = str | int | float | None
 _ESCAPE_LIKE = re.compile(r"_(x[0-9A-Fa-f]{4}_)")
@@ -89,7 +90,7 @@ def _items(results: RoundResults) -> tuple[list[str], list[list[Cell]]]:
         rows.append([it.item, it.truth, *(results.round.item_attributes[a][i] for a in attrs),
                      it.answered, it.correct, it.wrong, it.inconclusive, it.difficulty,
                      it.discrimination, it.inconclusive_rate, "yes" if it.flagged else "no",
-                     it.flag_reason])
+                     statements.flag_reason(it)])
     return header, rows
 
 
@@ -150,7 +151,7 @@ def results_workbook(results: RoundResults) -> bytes:
     _sheet(wb, "Group summary", ["metric", "n", "mean", "sd", "min", "lower quartile", "median",
                                  "upper quartile", "max"], _group(results))
     _sheet(wb, "Methods", ["metric", "label", "formula", "source"],
-           [[m.name, m.label, m.formula, m.source] for m in METHODS
+           [[m.name, m.label, m.formula, m.source] for m in METRICS
             if m.name in (results.participants[0].metrics if results.participants else BY_NAME)])
     _sheet(wb, "Round", ["field", "value"], _round_rows(results))
     issued = results.round.config.round.issued

@@ -24,7 +24,7 @@ from hypothesis import strategies as st
 from reportgen.cli import main
 from reportgen.errors import ProblemLog
 from reportgen.rounds.tables import read_table
-from scripts.make_hostile_inputs import ROUND_TOML, base
+from scripts.hostile import ROUND_TOML, base
 
 EXAMPLE_TOML = (Path(__file__).parents[2] / "docs" / "example-round.toml").read_text("utf-8")
 

@@ -1,7 +1,7 @@
 """Hostile and broken round folders (issue 5): each is refused with its exact located message,
 exit status 2 and an untouched OUT; awkward but valid ones are read without losing a character.
 
-Every input is generated at test time by scripts/make_hostile_inputs.py (no binary blobs). OUT
+Every input is generated at test time by scripts/hostile/ (no binary blobs). OUT
 is a complete earlier output plus a sentinel file; after each refusal every byte under the
 test's folder (OUT, and OUT's parent: no staging folder, no lock) must be as it was.
 """
@@ -23,7 +23,7 @@ from reportgen.cli import main
 from reportgen.errors import ProblemLog
 from reportgen.pipeline import load
 from reportgen.rounds.tables import read_table
-from scripts.make_hostile_inputs import (
+from scripts.hostile import (
     ACCEPTED,
     BILLION_LAUGHS,
     EXTERNAL_ENTITY,

@@ -9,7 +9,7 @@ from pathlib import Path
 import pytest
 
 from reportgen.cli import main
-from scripts.make_hostile_inputs import base
+from scripts.hostile import base
 
 
 def _snapshot(root: Path) -> dict[str, bytes | None]:

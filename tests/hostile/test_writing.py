@@ -21,7 +21,7 @@ import python_calamine
 from reportgen.cli import main
 from reportgen.output import verify
 from reportgen.render.batch import safe_stems
-from scripts.make_hostile_inputs import HOSTILE_ATTRIBUTES, HOSTILE_PEOPLE, hostile_text_round
+from scripts.hostile import HOSTILE_ATTRIBUTES, HOSTILE_PEOPLE, hostile_text_round
 from tests.render.helpers import html_text, pdf_text
 
 pytestmark = pytest.mark.slow

@@ -18,6 +18,7 @@ from scipy import stats
 from sklearn.metrics import roc_auc_score
 
 from reportgen.metrics import metad
+from reportgen.metrics.ideal_observer import ideal_observer
 from reportgen.metrics.metad import (
     D_PRIME_MIN,
     FEW_ERRORS_THRESHOLD,
@@ -25,7 +26,6 @@ from reportgen.metrics.metad import (
     few_errors_flag,
     fit_meta_d,
     fit_meta_d_many,
-    ideal_observer,
     meta_d_interval,
     n_errors,
     pool_tables,
@@ -75,14 +75,14 @@ def test_vector_b_unpadded() -> None:
     ],
 )
 def test_padded_vectors(noise: list[int], signal: list[int], expected: float) -> None:
-    result = fit_meta_d(noise, signal)  # pad=True is the default (DESIGN §3)
+    result = fit_meta_d(noise, signal)  # pad=True is the default (docs/design.md §3)
     assert result.meta_d == pytest.approx(expected, abs=1e-3)
     assert result.converged
     assert result.note is None
 
 
 def test_type1_from_the_padded_table() -> None:
-    # Identity (DESIGN §3): d′ and c of the same table with 1/(2K) added to every cell.
+    # Identity (docs/design.md §3): d′ and c of the same table with 1/(2K) added to every cell.
     k = 4
     noise = np.array(A_NOISE) + 1 / (2 * k)
     signal = np.array(A_SIGNAL) + 1 / (2 * k)

@@ -84,7 +84,7 @@ def test_identical_majority_gives_zero_sd_and_no_z() -> None:
     assert float(r.sd) == 0.0
     assert int(r.iterations) == 0
     assert bool(r.converged)
-    assert r.reason().tolist() == "robust standard deviation is zero"
+    assert r.reason().tolist() == "the group's robust standard deviation is 0"
     z = z_scores([0.5, 1.0], r.mean, r.sd)
     assert np.isnan(z).all()
     assert classify_z(z).tolist() == ["not assessable", "not assessable"]

@@ -18,10 +18,10 @@ from reportgen.metrics.selfestimate import (
     glejser_test,
     insight_by_ability,
     mean_interval,
-    quartile_reading,
     quartile_view,
     rank_groups,
 )
+from reportgen.render.wording.statements import quartile_reading
 
 FloatArray = npt.NDArray[np.float64]
 

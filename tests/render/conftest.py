@@ -4,9 +4,10 @@ from __future__ import annotations
 
 import pytest
 
-from reportgen.render.html import render_appendix, render_certificate
+from reportgen.render.appendix import render_appendix
+from reportgen.render.certificate import render_certificate
 from reportgen.render.pdf import html_to_pdf
-from reportgen.results import ParticipantResult, RoundResults
+from reportgen.results.model import ParticipantResult, RoundResults
 from reportgen.settings import Settings
 
 from .render_fixtures import build_results

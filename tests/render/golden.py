@@ -12,7 +12,8 @@ from __future__ import annotations
 import re
 from pathlib import Path
 
-from reportgen.render.html import render_appendix, render_certificate
+from reportgen.render.appendix import render_appendix
+from reportgen.render.certificate import render_certificate
 from reportgen.settings import Settings
 
 GOLDEN_DIR = Path(__file__).resolve().parents[1] / "golden"

@@ -20,14 +20,13 @@ from statistics import NormalDist
 
 import numpy as np
 
-from reportgen.metrics.metad import ideal_observer
+from reportgen.metrics.ideal_observer import ideal_observer
 from reportgen.metrics.selfestimate import (
     AbilityGroup,
     insight_by_ability,
-    quartile_reading,
     quartile_view,
 )
-from reportgen.results import (
+from reportgen.results.model import (
     CriterionOutcome,
     Distribution,
     GroupResult,
@@ -208,14 +207,13 @@ def _criteria(rnd: Round, counts: dict[str, int], m: dict[str, Metric], z: float
                        "questionable" if abs(z) < 3 else "unsatisfactory")
             out.append(CriterionOutcome(crit.id, crit.label, crit.metric,
                                         m[crit.metric].value, outcome,  # type: ignore[arg-type]
-                                        f"z = {z:+.2f} (ISO 13528 Algorithm A)"))
+                                        z=z))
             continue
         value = float(counts[crit.metric]) if crit.metric in counts else m[crit.metric].value
         ok = value is not None and (crit.at_least is None or value >= crit.at_least) and (
             crit.at_most is None or value <= crit.at_most)
         out.append(CriterionOutcome(crit.id, crit.label, crit.metric, value,
-                                    "met" if ok else "not met",
-                                    f"{crit.metric} = {value:.4g}"))
+                                    "met" if ok else "not met"))
     return tuple(out)
 
 
@@ -245,8 +243,7 @@ def _items(rnd: Round) -> tuple[ItemResult, ...]:
             correct=int(right.sum()), wrong=int(wrong.sum()), inconclusive=int(inc.sum()),
             difficulty=float(right.mean()), discrimination=disc,
             inconclusive_rate=float(inc.mean()), flagged=flagged,
-            flag_reason="50% of the strongest quarter answered against the key" if flagged
-            else None))
+            strong_against=0.5 if flagged else None))
     return tuple(out)
 
 
@@ -265,13 +262,12 @@ def _self_estimates(acc: np.ndarray, per: PerParticipant, estimates: str | None,
         rng = np.random.default_rng(seed)
         estimate = np.clip(0.5 * acc + 0.4 + rng.normal(0, 0.05, acc.size), 0, 1)
         view = quartile_view(acc, estimate, n_perm=500, seed=seed)
-        return SelfEstimateView("estimates file", "accuracy", view, quartile_reading(view)), None
+        return SelfEstimateView("estimates file", "accuracy", view), None
     conf = np.array([0.5 + ((m["mean_confidence_correct"].value or 3.0) - 1) / 8
                      for _, m, _ in per])
     decisive = np.array([m["decisive_accuracy"].value or 0.0 for _, m, _ in per])
     view = quartile_view(decisive, conf, n_perm=500, seed=seed)
-    return (SelfEstimateView("mean stated confidence", "decisive_accuracy", view,
-                             quartile_reading(view)), None)
+    return SelfEstimateView("mean stated confidence", "decisive_accuracy", view), None
 
 
 def _ability(per: PerParticipant) -> tuple[AbilityGroup, ...]:
@@ -300,9 +296,7 @@ def build_results(n_participants: int = 8, n_items: int = 20, seed: int = 7,
         ok = all(c.outcome in ("met", "satisfactory") for c in criteria)
         participants.append(ParticipantResult(
             code=rnd.participants[p], row=p, counts=counts, metrics=m, levels=levels,
-            criteria=criteria, overall="all criteria met" if ok else "not all criteria met",
-            overall_text=("All announced criteria were met." if ok else
-                          "Not all announced criteria were met; see the table of criteria.")))
+            criteria=criteria, overall="all criteria met" if ok else "not all criteria met"))
     names = list(per[0][1])
     view, view_note = _self_estimates(acc, per, estimates, seed)
     group_levels = tuple(

@@ -5,7 +5,7 @@ from __future__ import annotations
 import json
 
 from reportgen.render import charts
-from reportgen.results import LevelRow, RoundResults
+from reportgen.results.model import LevelRow, RoundResults
 
 
 def _levels() -> tuple[LevelRow, ...]:

@@ -1,19 +1,16 @@
-"""The group views (DESIGN §3, issue 4): self-estimates by quartile and insight against ability in
-the appendix, and the participant's position in the type-2-area-against-d′ view."""
+"""The group views (docs/design.md §3, issue 4): self-estimates by quartile and insight against
+ability in the appendix, and the participant's position in the type-2-area-against-d′ view."""
 
 from __future__ import annotations
 
 import json
 
 from reportgen.render import charts, wording
-from reportgen.render.html import (
-    appendix_context,
-    certificate_context,
-    insight_points,
-    render_appendix,
-    render_certificate,
-)
-from reportgen.results import Metric, RoundResults
+from reportgen.render.appendix import appendix_context, render_appendix
+from reportgen.render.certificate import certificate_context, render_certificate
+from reportgen.render.context import insight_points
+from reportgen.render.wording import readings, statements
+from reportgen.results.model import Metric, RoundResults
 from reportgen.settings import Settings
 
 from .helpers import contains_token, html_text, norm, pdf_text
@@ -25,7 +22,7 @@ def test_appendix_shows_the_quartile_view_with_its_test(results: RoundResults,
     se = results.group.self_estimates
     assert se is not None and se.view.glejser is not None
     text = html_text(appendix_html)
-    assert norm(se.reading) in text
+    assert norm(statements.quartile_reading(se.view)) in text
     g = se.view.glejser
     assert f"slope {norm(wording.fmt_signed(g.slope, 3))}, {wording.fmt_p(g.slope_p)}" in text
     assert f"{wording.fmt_p(g.quadratic_p)} for the curve" in text
@@ -114,14 +111,14 @@ def test_certificate_shows_meta_d_with_interval_and_flag(results: RoundResults,
     text = html_text(html)
     meta = p.metrics["meta_d"]
     assert norm(wording.fmt_interval(meta)) in text
-    assert norm(wording.read_meta_d(meta, p.metrics["d_prime"])) in text
+    assert norm(readings.read_meta_d(meta, p.metrics["d_prime"])) in text
     ctx = certificate_context(results, p, settings)
     insight = next(s for s in ctx["sections"] if "type2_auroc" in [r["name"] for r in s["rows"]])
     names = [r["name"] for r in insight["rows"]]
     assert names.index("meta_d") + 1 == names.index("m_ratio")  # beside the M-ratio row
     flagged = {r["name"] for r in insight["rows"] if r["caution"]}
     assert {"meta_d", "m_ratio"} <= flagged
-    assert insight["note"] == wording.read_relative_insight(p.metrics["type2_auroc"],
+    assert insight["note"] == readings.read_relative_insight(p.metrics["type2_auroc"],
                                                             p.metrics["expected_type2_auroc"])
     assert "Your insight for your accuracy" in text
     assert ctx["charts"]["insight"] is not None

@@ -9,16 +9,12 @@ import pytest
 
 from reportgen.errors import InputError
 from reportgen.render import charts, wording
-from reportgen.render.html import (
-    PreviousRound,
-    appendix_context,
-    logo_path,
-    render_appendix,
-    render_certificate,
-    report_id,
-)
+from reportgen.render.appendix import appendix_context, render_appendix
+from reportgen.render.certificate import render_certificate
+from reportgen.render.context import logo_path, report_id
 from reportgen.render.pdf import html_to_pdf
-from reportgen.results import Metric, ParticipantResult, RoundResults
+from reportgen.render.wording import statements
+from reportgen.results.model import Metric, ParticipantResult, PreviousRound, RoundResults
 from reportgen.settings import Settings
 
 from .helpers import contains_token, html_text, norm
@@ -86,7 +82,7 @@ def test_certificate_carries_the_required_parts(results: RoundResults,
     for part in (
         results.round.config.provider.name, info.scheme, info.id, info.title, info.key_statement,
         report_id(info.id, hostile.code), "15 May 2026", "final", "confidential",
-        "End of report", hostile.overall_text,
+        "End of report", statements.overall_text(hostile),
         *(c.label for c in results.round.config.criteria),
         *wording.CAUTIONS,
         "Hautus", "Macmillan", "Fleming", "Nelson", "Maniscalco", "Murphy", "ISO 13528",

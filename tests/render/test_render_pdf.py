@@ -15,7 +15,7 @@ from pypdf import PdfReader
 from reportgen.errors import BuildError
 from reportgen.render import wording
 from reportgen.render.pdf import RestrictedFetcher, html_to_pdf
-from reportgen.results import ParticipantResult, RoundResults
+from reportgen.results.model import ParticipantResult, RoundResults
 
 from .helpers import contains_token, norm, page_count, pdf_text
 from .render_fixtures import HOSTILE_NAME

@@ -7,7 +7,8 @@ import datetime as dt
 import pytest
 
 from reportgen.render import wording
-from reportgen.results import Metric, RoundResults
+from reportgen.render.wording import readings
+from reportgen.results.model import Metric, RoundResults
 
 from .render_fixtures import round_config
 
@@ -46,64 +47,64 @@ def test_dates_do_not_depend_on_the_locale() -> None:
 
 def test_conf_gap_reading_states_direction_and_size() -> None:
     cfg = round_config()
-    text = wording.read_conf_gap(Metric(1.2, 0.4, 2.0), cfg)
+    text = readings.read_conf_gap(Metric(1.2, 0.4, 2.0), cfg)
     assert text == ("When you were wrong you were on average 1.2 points on the 1\u20135 scale less "
                     "confident than when you were right.")
-    assert "more confident" in wording.read_conf_gap(Metric(-0.7), cfg)
-    assert "about as confident" in wording.read_conf_gap(Metric(0.01), cfg)
+    assert "more confident" in readings.read_conf_gap(Metric(-0.7), cfg)
+    assert "about as confident" in readings.read_conf_gap(Metric(0.01), cfg)
 
 
 def test_not_estimable_and_caution_notes_are_shown() -> None:
     cfg = round_config()
-    assert wording.read_conf_gap(Metric(None, note="no errors"), cfg) == (
+    assert readings.read_conf_gap(Metric(None, note="no errors"), cfg) == (
         "Not estimable for you in this round (no errors).")
-    assert wording.read_type2_auroc(Metric(0.7, 0.5, 0.9, "few errors: unstable")).endswith(
+    assert readings.read_type2_auroc(Metric(0.7, 0.5, 0.9, "few errors: unstable")).endswith(
         "Caution: few errors: unstable.")
 
 
 def test_overconfidence_reading_names_the_convention() -> None:
-    text = wording.read_overconfidence(Metric(0.062), round_config())
+    text = readings.read_overconfidence(Metric(0.062), round_config())
     assert "6.2 percentage points above" in text
     assert "overconfident" in text
     assert "1 \u2192 50\u00a0%" in text
-    assert "underconfident" in wording.read_overconfidence(Metric(-0.1), round_config())
+    assert "underconfident" in readings.read_overconfidence(Metric(-0.1), round_config())
 
 
 def test_relative_insight_compares_with_the_ideal_observer() -> None:
     # Expected value above the observed interval: less than expected.
-    below = wording.read_relative_insight(Metric(0.6, 0.5, 0.7), Metric(0.8))
+    below = readings.read_relative_insight(Metric(0.6, 0.5, 0.7), Metric(0.8))
     assert "above your interval" in below
     assert "less than expected for your accuracy" in below
     # Inside the interval: about as well as expected, whatever the point estimate says.
-    within = wording.read_relative_insight(Metric(0.75, 0.6, 0.9), Metric(0.8))
+    within = readings.read_relative_insight(Metric(0.75, 0.6, 0.9), Metric(0.8))
     assert "inside your interval" in within
     assert "about as well as expected for your accuracy" in within
     # Below the interval: more than expected.
-    above = wording.read_relative_insight(Metric(0.9, 0.82, 0.97), Metric(0.8))
+    above = readings.read_relative_insight(Metric(0.9, 0.82, 0.97), Metric(0.8))
     assert "more than expected for your accuracy" in above
     # The sentence names both values and the interval it judged by.
     assert "0.75" in within and "0.80" in within and "0.60 to 0.90" in within
-    assert wording.read_relative_insight(Metric(None, note="no errors"), Metric(0.8)) == ""
+    assert readings.read_relative_insight(Metric(None, note="no errors"), Metric(0.8)) == ""
 
 
 def test_relative_insight_without_an_interval_claims_no_verdict() -> None:
-    text = wording.read_relative_insight(Metric(0.6), Metric(0.8))
+    text = readings.read_relative_insight(Metric(0.6), Metric(0.8))
     assert "cannot tell" in text
     for verdict in ("less than expected", "more than expected", "as well as expected"):
         assert verdict not in text
 
 
 def test_relative_insight_carries_the_few_errors_caution() -> None:
-    text = wording.read_relative_insight(Metric(0.7, 0.5, 0.9, "few errors: unstable"),
+    text = readings.read_relative_insight(Metric(0.7, 0.5, 0.9, "few errors: unstable"),
                                          Metric(0.75))
     assert text.endswith("Caution: few errors: unstable.")
 
 
 def test_meta_d_reading_names_d_prime_and_caution() -> None:
-    text = wording.read_meta_d(Metric(1.25, 0.44, 2.19, "few errors: unstable"), Metric(1.93))
+    text = readings.read_meta_d(Metric(1.25, 0.44, 2.19, "few errors: unstable"), Metric(1.93))
     assert text.startswith("meta-d\u2032 = 1.25 against your d\u2032 of 1.93")
     assert text.endswith("Caution: few errors: unstable.")
-    assert wording.read_meta_d(Metric(None, note="no errors"), Metric(1.9)) == (
+    assert readings.read_meta_d(Metric(None, note="no errors"), Metric(1.9)) == (
         "Not estimable for you in this round (no errors).")
 
 
@@ -116,12 +117,12 @@ def test_fmt_p() -> None:
 def test_every_reading_is_one_line(results: RoundResults) -> None:
     cfg = results.round.config
     for p in results.participants:
-        for name, text in wording.readings(p, cfg).items():
+        for name, text in wording.metric_readings(p, cfg).items():
             assert "\n" not in text, name
             assert text == "" or text.endswith("."), (name, text)
 
 
 def test_a_negative_m_ratio_is_not_read_as_a_negative_share() -> None:
-    text = wording.read_m_ratio(Metric(-0.09, -1.5, 1.3))
+    text = readings.read_m_ratio(Metric(-0.09, -1.5, 1.3))
     assert "\u22129" not in text and "none of the information" in text
-    assert "about 65\u00a0%" in wording.read_m_ratio(Metric(0.65, 0.2, 1.1))
+    assert "about 65\u00a0%" in readings.read_m_ratio(Metric(0.65, 0.2, 1.1))

@@ -1,13 +1,13 @@
 """One examiner across rounds: values per round, pooled insight, change tests and group standing.
 
-Pure computation on archived records (:class:`reportgen.history.ArchivedRound`);
+Pure computation on archived records (:class:`reportgen.archive.queries.ArchivedRound`);
 :func:`build_trend` reads the archive and calls :func:`trend_from_history`.
 
 * **Per round**: the archived metrics with their 95 % intervals, unchanged.
 * **Pooled insight**: the raw rating tables of all (or the last N) rounds are summed and fitted
   once (meta-d′ by maximum likelihood, Maniscalco & Lau 2012), with a seeded stratified bootstrap
   interval, and compared with an observer whose confidence reads the same evidence as its decisions
-  (the "relative insight" of :func:`reportgen.metrics.metad.ideal_observer`).
+  (the "relative insight" of :func:`reportgen.metrics.ideal_observer.ideal_observer`).
 * **Change** between the latest and the previous round: the two-proportion z-test with pooled
   variance for the error rates, with Newcombe's (1998) hybrid score interval for the difference;
   the difference of d′ with the standard error from Gourevitch & Galanter (1967). A difference is
@@ -21,22 +21,23 @@ from __future__ import annotations
 
 import datetime as dt
 import math
-from collections.abc import Callable, Mapping, Sequence
-from dataclasses import dataclass, replace
+from collections.abc import Mapping, Sequence
+from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
 
 import numpy as np
 import numpy.typing as npt
-from scipy import stats
+from scipy import special, stats
 
-from reportgen import history as archive
+from reportgen.archive import queries as archive
+from reportgen.archive.queries import ArchivedRound, Rename
+from reportgen.catalogue import INTERVAL_LEVEL, TREND_METRICS, short_label
 from reportgen.errors import InputError
-from reportgen.history import ArchivedRound, Rename
+from reportgen.metrics.ideal_observer import ideal_observer
 from reportgen.metrics.insight import type2_auroc
 from reportgen.metrics.metad import (
     fit_meta_d,
-    ideal_observer,
     meta_d_interval,
     n_errors,
     pool_tables,
@@ -45,20 +46,14 @@ from reportgen.metrics.proportions import proportion_ci
 from reportgen.metrics.robust import classify_z
 from reportgen.metrics.sdt import sdt_loglinear
 from reportgen.metrics.uncertainty import hanley_mcneil_se
-from reportgen.render.wording import LABELS, fmt_number, fmt_percent, fmt_signed
-from reportgen.results import Metric
+from reportgen.results import reasons
+from reportgen.results.model import Metric
 
-TREND_METRICS: tuple[str, ...] = (
-    "accuracy", "false_positive_rate", "false_negative_rate", "inconclusive_rate",
-    "d_prime", "conf_gap", "type2_auroc", "m_ratio",
-)
 ALPHA = 0.05
 """A difference counts as more than chance when its two-sided p-value is below this."""
 FloatArray = npt.NDArray[np.float64]
-Z95 = float(stats.norm.ppf(0.975))
+Z = float(special.ndtri(0.5 + INTERVAL_LEVEL / 2))
 
-ONE_ROUND_NOTE = ("There is only one round of yours in the archive, so a change cannot be "
-                  "assessed yet.")
 
 
 # ---------------------------------------------------------------------------------------------
@@ -123,7 +118,7 @@ class ChangeTest:
     earlier: Metric
     latest: Metric
     test: DifferenceTest
-    reading: str
+    noun: str  # what the counted events are called ("" for d′)
 
 
 @dataclass(frozen=True)
@@ -144,7 +139,6 @@ class PooledInsight:
     expected_type2_auroc: float | None
     n_boot: int
     seed: int
-    reading: str
 
     @property
     def few_errors(self) -> bool:
@@ -165,10 +159,8 @@ class Trend:
     issued: dt.date
     points: tuple[RoundPoint, ...]
     pooled: PooledInsight
-    changes: tuple[ChangeTest, ...]
-    change_note: str | None
+    changes: tuple[ChangeTest, ...]  # empty when the archive holds one round only
     last_n: int | None
-    summary: tuple[str, ...]
 
 
 # ---------------------------------------------------------------------------------------------
@@ -212,7 +204,7 @@ def sdt_counts(counts: Mapping[str, int]) -> tuple[int, int, int, int]:
 
 def d_prime_difference(latest: Mapping[str, int], earlier: Mapping[str, int]) -> DifferenceTest:
     """d′_latest − d′_earlier (log-linear d′, Hautus 1995) with SE = sqrt(SE1² + SE0²), each SE
-    from Gourevitch & Galanter (1967); z = difference / SE, interval difference ± 1.96 SE."""
+    from Gourevitch & Galanter (1967); z = difference / SE, interval difference ± z SE."""
     a = sdt_loglinear(*sdt_counts(latest))
     b = sdt_loglinear(*sdt_counts(earlier))
     d1, d0 = float(a.d_prime), float(b.d_prime)
@@ -222,35 +214,8 @@ def d_prime_difference(latest: Mapping[str, int], earlier: Mapping[str, int]) ->
                               "d\u2032 not estimable in one of the rounds")
     diff = d1 - d0
     z = diff / se
-    return DifferenceTest(diff, diff - Z95 * se, diff + Z95 * se, z,
+    return DifferenceTest(diff, diff - Z * se, diff + Z * se, z,
                           float(2 * stats.norm.sf(abs(z))))
-
-
-def fmt_p(p: float) -> str:
-    return "p < 0.001" if p < 0.001 else f"p = {p:.3f}" if p < 0.1 else f"p = {p:.2f}"
-
-
-def change_reading(label: str, earlier: str, latest: str, earlier_round: str,
-                   latest_round: str, test: DifferenceTest, noun: str = "") -> str:
-    """One plain sentence: what moved, and whether chance alone explains it."""
-    if test.p_value is None:
-        if test.note == "none in either round" and noun:
-            return (f"{label}: no {noun} in {earlier_round} or {latest_round}, so there is "
-                    "nothing to compare.")
-        why = test.note or "nothing to compare"
-        return f"{label}: {why} ({earlier} in {earlier_round}, {latest} in {latest_round})."
-    d = test.difference or 0.0
-    if earlier == latest:
-        moved = f"stayed at {latest} from {earlier_round} to {latest_round}"
-    else:
-        verb = "rose" if d > 0 else "fell"
-        moved = f"{verb} from {earlier} in {earlier_round} to {latest} in {latest_round}"
-    if test.p_value >= ALPHA:
-        return (f"{label} {moved}. Chance alone often gives a difference this size between two "
-                f"rounds ({fmt_p(test.p_value)}): this is not evidence of a change.")
-    return (f"{label} {moved}. Chance alone would seldom give a difference this large "
-            f"({fmt_p(test.p_value)}), so it may be a real change; the rounds had different "
-            "items, so read it together with your standing in each round's group.")
 
 
 _PROPORTION_TESTS: tuple[tuple[str, str, str, str], ...] = (
@@ -267,27 +232,16 @@ def change_tests(latest: ArchivedRound, earlier: ArchivedRound) -> tuple[ChangeT
         test = two_proportion_test(latest.counts[k], latest.counts[n],
                                    earlier.counts[k], earlier.counts[n])
         out.append(_change(name, "two-proportion z-test; Newcombe interval", latest, earlier,
-                           test, fmt_percent, noun))
+                           test, noun))
     out.append(_change("d_prime", "difference of d\u2032 with Gourevitch\u2013Galanter SE",
-                       latest, earlier, d_prime_difference(latest.counts, earlier.counts),
-                       fmt_number))
+                       latest, earlier, d_prime_difference(latest.counts, earlier.counts)))
     return tuple(out)
 
 
 def _change(name: str, method: str, latest: ArchivedRound, earlier: ArchivedRound,
-            test: DifferenceTest, fmt: Callable[[float | None], str],
-            noun: str = "") -> ChangeTest:
-    m1, m0 = latest.metric(name), earlier.metric(name)
-    label = _short_label(name)
-    reading = change_reading(label, fmt(m0.value), fmt(m1.value), earlier.round_id,
-                             latest.round_id, test, noun)
-    return ChangeTest(name, label, method, earlier.round_id, latest.round_id, m0, m1, test,
-                      reading)
-
-
-def _short_label(name: str) -> str:
-    label = LABELS.get(name, name.replace("_", " "))
-    return label.split(" (")[0]
+            test: DifferenceTest, noun: str = "") -> ChangeTest:
+    return ChangeTest(name, short_label(name), method, earlier.round_id, latest.round_id,
+                      earlier.metric(name), latest.metric(name), test, noun)
 
 
 # ---------------------------------------------------------------------------------------------
@@ -301,7 +255,7 @@ def standing(accuracy: float | None, x_star: float | None, s_star: float | None,
     floating-point noise (0.4 − 0.7 = −0.29999…) does not move a value off a limit."""
     if accuracy is None or x_star is None or s_star is None or not s_star > 0:
         why = note or ("your accuracy was not estimable" if accuracy is None
-                       else "the group gave no robust standard deviation")
+                       else reasons.ROBUST_SD_ZERO)
         return Standing(None, "not assessable", "not assessable", x_star, s_star, n_group, why)
     z = (accuracy - x_star) / s_star
     iso = str(classify_z(round(z, 9)))  # rounding noise must not move z = -3.0 across a limit
@@ -345,7 +299,7 @@ def pooled_type2_auroc(noise: FloatArray, signal: FloatArray) -> Metric:
     if not math.isfinite(area):
         return Metric(None, note="no errors" if wrong.sum() == 0 else "no correct answers")
     se = float(hanley_mcneil_se(area, correct.sum(), wrong.sum()))
-    return Metric(area, max(0.0, area - Z95 * se), min(1.0, area + Z95 * se))
+    return Metric(area, max(0.0, area - Z * se), min(1.0, area + Z * se))
 
 
 def select_pooled(history: Sequence[ArchivedRound], last_n: int | None
@@ -368,7 +322,7 @@ def pooled_insight(history: Sequence[ArchivedRound], *, last_n: int | None, seed
     ci = (meta_d_interval(noise, signal, n_boot=n_boot, seed=seed)
           if n_boot > 0 and fit.meta_d is not None else None)
     errors = n_errors(noise, signal)
-    flag = "few errors: unstable" if errors < threshold else None
+    flag = reasons.FEW_ERRORS if errors < threshold else None
     meta_d = Metric(fit.meta_d, ci.meta_d_low if ci else None, ci.meta_d_high if ci else None,
                     fit.note if fit.meta_d is None else flag)
     m_ratio = Metric(fit.m_ratio, ci.m_ratio_low if ci else None,
@@ -383,102 +337,12 @@ def pooled_insight(history: Sequence[ArchivedRound], *, last_n: int | None, seed
         noise=tuple(int(x) for x in noise), signal=tuple(int(x) for x in signal),
         n_conclusive=int(noise.sum() + signal.sum()), n_errors=errors, threshold=threshold,
         d_prime=fit.d_prime, meta_d=meta_d, m_ratio=m_ratio, type2_auroc=auroc,
-        expected_type2_auroc=expected, n_boot=n_boot if ci else 0, seed=seed, reading="")
-    return _with_reading(pooled)
-
-
-def _with_reading(p: PooledInsight) -> PooledInsight:
-    return replace(p, reading=" ".join(pooled_reading(p)))
-
-
-def pooled_reading(p: PooledInsight) -> list[str]:
-    """Plain sentences on the pooled estimate; nothing is claimed that the interval does not
-    support."""
-    n = len(p.round_ids)
-    scope = "your one round" if n == 1 else f"your {n} rounds {p.round_ids[0]} to {p.round_ids[-1]}"
-    if p.meta_d.value is None:
-        return [f"Pooled over {scope}, meta-d\u2032 cannot be estimated ({p.meta_d.note})."]
-    out = [f"Pooled over {scope} ({p.n_conclusive} conclusive answers, {p.n_errors} of them "
-           f"errors), meta-d\u2032 is {fmt_number(p.meta_d.value)} against a d\u2032 of "
-           f"{fmt_number(p.d_prime)}."]
-    m = p.m_ratio
-    if m.value is not None and m.low is not None and m.high is not None:
-        if m.low <= 1 <= m.high:
-            out.append(f"The M-ratio of {fmt_number(m.value)} (95\u00a0% interval "
-                       f"{fmt_number(m.low)} to {fmt_number(m.high)}) is consistent with "
-                       "confidence that uses all the information your decisions carry.")
-        elif m.high < 1:
-            out.append(f"The M-ratio of {fmt_number(m.value)} (95\u00a0% interval "
-                       f"{fmt_number(m.low)} to {fmt_number(m.high)}) shows confidence using "
-                       "less of the information your decisions carry than an ideal observer.")
-        else:
-            out.append(f"The M-ratio of {fmt_number(m.value)} (95\u00a0% interval "
-                       f"{fmt_number(m.low)} to {fmt_number(m.high)}) lies above 1: confidence "
-                       "drew on information the decisions did not use.")
-    elif m.value is not None:
-        out.append(f"The M-ratio is {fmt_number(m.value)}; without an interval, read only its "
-                   "rough size.")
-    out.extend(_relative(p))
-    if p.few_errors:
-        pooled = "even pooled, " if n > 1 else ""
-        out.append(f"Caution: {pooled}the table holds fewer than {p.threshold} errors, so "
-                   "these estimates are unstable.")
-    return out
-
-
-def _relative(p: PooledInsight) -> list[str]:
-    a, expected = p.type2_auroc, p.expected_type2_auroc
-    if a.value is None or expected is None:
-        return []
-    if a.low is not None and a.high is not None and expected < a.low:
-        verdict = "more than"
-    elif a.low is not None and a.high is not None and expected > a.high:
-        verdict = "less than"
-    else:
-        verdict = "about as well as"
-    return [f"An observer as accurate as you over these rounds, whose confidence reads the same "
-            f"evidence as the decisions, would reach a type-2 ROC area of about "
-            f"{fmt_number(expected)}; yours is {fmt_number(a.value)}, so your confidence "
-            f"separated right from wrong {verdict} your accuracy allows."]
+        expected_type2_auroc=expected, n_boot=n_boot if ci else 0, seed=seed)
+    return pooled
 
 
 # ---------------------------------------------------------------------------------------------
 # The whole trend
-
-
-def _summary(points: Sequence[RoundPoint], changes: Sequence[ChangeTest],
-             pooled: PooledInsight) -> tuple[str, ...]:
-    last = points[-1]
-    span = (f"{len(points)} rounds from {points[0].round_id} to {last.round_id}"
-            if len(points) > 1 else f"one round, {last.round_id}")
-    out = [f"The archive holds {span}."]
-    s = last.standing
-    acc = fmt_percent(last.metrics["accuracy"].value)
-    if s.z is not None:
-        out.append(f"In {last.round_id} your accuracy was {acc}, z = {fmt_signed(s.z)} against "
-                   f"the group: {s.classification}.")
-    else:
-        out.append(f"In {last.round_id} your accuracy was {acc}; standing in the group not "
-                   f"assessable ({s.note}).")
-    if not changes:
-        out.append(ONE_ROUND_NOTE)
-    else:
-        moved = [c.label.lower() for c in changes
-                 if c.test.p_value is not None and c.test.p_value < ALPHA]
-        prev = changes[0].earlier_round
-        out.append(f"Since {prev}, no difference stands out from chance." if not moved else
-                   f"Since {prev}, a difference larger than chance would usually give: "
-                   f"{', '.join(moved)} (see below).")
-    m = pooled.m_ratio
-    rounds = "your one round" if len(pooled.round_ids) == 1 else (
-        f"{len(pooled.round_ids)} rounds")
-    if m.value is None:
-        out.append(f"Pooled over {rounds}, insight (M-ratio) is not estimable ({m.note}).")
-    else:
-        interval = (f" (95\u00a0% interval {fmt_number(m.low)} to {fmt_number(m.high)})"
-                    if m.low is not None and m.high is not None else "")
-        out.append(f"Pooled over {rounds}, your M-ratio is {fmt_number(m.value)}{interval}.")
-    return tuple(out)
 
 
 def trend_from_history(history: Sequence[ArchivedRound], *, code: str,
@@ -504,9 +368,7 @@ def trend_from_history(history: Sequence[ArchivedRound], *, code: str,
         points=points,
         pooled=pooled,
         changes=changes,
-        change_note=None if changes else ONE_ROUND_NOTE,
         last_n=last_n,
-        summary=_summary(points, changes, pooled),
     )
 
 

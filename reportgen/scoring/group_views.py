@@ -9,16 +9,15 @@ from __future__ import annotations
 
 import numpy as np
 
-from reportgen.columns import Array, Column, Tables
-from reportgen.metrics.metad import ideal_observer
+from reportgen.metrics.ideal_observer import ideal_observer
 from reportgen.metrics.selfestimate import (
     AbilityGroup,
     insight_by_ability,
-    quartile_reading,
     quartile_view,
 )
-from reportgen.results import EstimateSource, IdealPoint, SelfEstimateView
+from reportgen.results.model import EstimateSource, IdealPoint, SelfEstimateView
 from reportgen.rounds.model import Round
+from reportgen.scoring.columns import Array, Column, Tables
 
 N_PERMUTATIONS = 2000
 _D_GRID = tuple(round(0.25 * i, 2) for i in range(1, 17))  # 0.25 ... 4.0
@@ -44,7 +43,7 @@ def self_estimate_view(rnd: Round, columns: dict[str, Column], tables: Tables,
     view = quartile_view(score, estimate, n_perm=N_PERMUTATIONS, seed=seed)
     if view.n < 8:
         return None, f"only {view.n} participants have both a score and an estimate (8 needed)"
-    return SelfEstimateView(source, score_name, view, quartile_reading(view)), None
+    return SelfEstimateView(source, score_name, view), None
 
 
 def ability_groups(columns: dict[str, Column]) -> tuple[AbilityGroup, ...]:

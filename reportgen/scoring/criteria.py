@@ -15,83 +15,62 @@ from dataclasses import dataclass
 import numpy as np
 import numpy.typing as npt
 
-from reportgen.metrics.robust import algorithm_a, classify_z, z_scores
-from reportgen.results import CriterionOutcome, Outcome, Overall
+from reportgen.metrics.robust import MIN_GROUP, algorithm_a, classify_z, z_scores
+from reportgen.results import reasons
+from reportgen.results.model import CriterionOutcome, Outcome, Overall
 from reportgen.rounds.schema import Criterion
 
 Array = npt.NDArray[np.float64]
 PASSING: frozenset[str] = frozenset({"met", "satisfactory", "questionable"})
-OVERALL_TEXT = {
-    "all criteria met": "All criteria announced before the round were met.",
-    "not all criteria met": "Not every criterion announced before the round was met; see the "
-    "table of criteria for which and by how much.",
-    "no criteria announced": "No performance criteria were announced for this round; the "
-    "results are given for information.",
-}
-
-WARNING_TEXT = (" One result is a warning signal (questionable: 2 < |z| < 3), which ISO 13528 "
-                "treats as a prompt to review rather than a failure.")
 
 
 @dataclass(frozen=True)
 class Verdicts:
     outcomes: tuple[tuple[CriterionOutcome, ...], ...]  # per participant, per criterion
     overall: tuple[Overall, ...]
-    overall_text: tuple[str, ...]
     counts: Mapping[str, Mapping[str, int]]
     overall_counts: Mapping[str, int]
     robust: Mapping[str, tuple[float, float]]
 
 
-def _fmt(x: float) -> str:
-    return f"{x:.4g}"
+def _not_estimable(rule: Criterion) -> CriterionOutcome:
+    return CriterionOutcome(rule.id, rule.label, rule.metric, None, "not assessable",
+                            reason=reasons.NOT_ESTIMABLE)
 
 
 def _bound(rule: Criterion, values: Array) -> list[CriterionOutcome]:
     out = []
     for v in values:
         if not np.isfinite(v):
-            out.append(CriterionOutcome(rule.id, rule.label, rule.metric, None, "not assessable",
-                                        f"{rule.metric} could not be estimated"))
+            out.append(_not_estimable(rule))
             continue
         ok_low = rule.at_least is None or v >= rule.at_least
         ok_high = rule.at_most is None or v <= rule.at_most
-        needs = " and ".join(
-            part for part in (
-                f"at least {_fmt(rule.at_least)}" if rule.at_least is not None else "",
-                f"at most {_fmt(rule.at_most)}" if rule.at_most is not None else "",
-            ) if part
-        )
         outcome: Outcome = "met" if ok_low and ok_high else "not met"
-        out.append(CriterionOutcome(rule.id, rule.label, rule.metric, float(v), outcome,
-                                    f"{rule.metric} = {_fmt(float(v))}; required {needs}"))
+        out.append(CriterionOutcome(rule.id, rule.label, rule.metric, float(v), outcome))
     return out
 
 
 def _z(rule: Criterion, values: Array) -> tuple[list[CriterionOutcome], tuple[float, float]]:
     finite = values[np.isfinite(values)]
-    est = algorithm_a(finite) if finite.size >= 3 else None
+    est = algorithm_a(finite) if finite.size >= MIN_GROUP else None
     if est is None or not est.sd > 0:
-        why = ("fewer than 3 estimable results in the group" if est is None
-               else "the group's robust standard deviation is 0")
+        why = reasons.FEW_IN_GROUP if est is None else reasons.ROBUST_SD_ZERO
         return ([CriterionOutcome(rule.id, rule.label, rule.metric,
-                                  float(v) if np.isfinite(v) else None, "not assessable", why)
+                                  float(v) if np.isfinite(v) else None, "not assessable",
+                                  reason=why)
                  for v in values], (float("nan"), float("nan")))
     z = z_scores(values, est.mean, est.sd)
     classes = classify_z(z)
     out = []
     for v, zi, cls in zip(values, z, classes, strict=True):
         if not np.isfinite(zi):
-            out.append(CriterionOutcome(rule.id, rule.label, rule.metric, None, "not assessable",
-                                        f"{rule.metric} could not be estimated"))
+            out.append(_not_estimable(rule))
             continue
         better_side = zi > 0 if rule.worse == "low" else zi < 0
         outcome: Outcome = "satisfactory" if better_side else str(cls)  # type: ignore[assignment]
-        out.append(CriterionOutcome(
-            rule.id, rule.label, rule.metric, float(v), outcome,
-            f"z = {zi:+.2f} (x* = {_fmt(float(est.mean))}, s* = {_fmt(float(est.sd))}, "
-            "ISO 13528 Algorithm A)",
-        ))
+        out.append(CriterionOutcome(rule.id, rule.label, rule.metric, float(v), outcome,
+                                    z=float(zi)))
     return out, (float(est.mean), float(est.sd))
 
 
@@ -121,11 +100,6 @@ def judge(rules: Sequence[Criterion], values: Mapping[str, Array]) -> Verdicts:
     return Verdicts(
         outcomes=by_participant,
         overall=overall,
-        overall_text=tuple(
-            OVERALL_TEXT[o] + (WARNING_TEXT if any(x.outcome == "questionable" for x in outs)
-                               else "")
-            for o, outs in zip(overall, by_participant, strict=True)
-        ),
         counts=counts,
         overall_counts=dict(sorted(Counter(overall).items())),
         robust=robust,

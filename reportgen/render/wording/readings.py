@@ -1,24 +1,19 @@
-"""Plain-language wording of the results: number formats and one-line readings of each metric.
-
-Pure functions of their arguments: no locale, no clock. Numbers use a full stop for decimals, the
-typographic minus sign (U+2212) for negatives and a no-break space before ``%``.
-"""
+"""One-line plain-language readings of each metric on a certificate, and the report cautions."""
 
 from __future__ import annotations
 
-import datetime as dt
-import math
 from collections.abc import Mapping
 
-from reportgen.results import Metric, ParticipantResult
+from reportgen.render.wording.numbers import (
+    count_of,
+    finite,
+    fmt_interval,
+    fmt_number,
+    fmt_percent,
+    plural,
+)
+from reportgen.results.model import Metric, ParticipantResult
 from reportgen.rounds.schema import RoundConfig
-
-DASH = "\u2014"  # shown where a value is not available
-MINUS = "\u2212"
-NBSP = "\u00a0"
-
-_MONTHS = ("January", "February", "March", "April", "May", "June", "July", "August",
-           "September", "October", "November", "December")
 
 CAUTIONS: tuple[str, ...] = (
     "Results from one round are a small sample of an examiner's work. The 95\u00a0% intervals "
@@ -31,103 +26,6 @@ CAUTIONS: tuple[str, ...] = (
     "examiner's fitness for casework rest with the provider, the employer's quality system and "
     "the accreditation body, not with this report.",
 )
-
-LABELS: Mapping[str, str] = {
-    "accuracy": "Accuracy (correct / all items)",
-    "error_rate": "Error rate (errors / all items)",
-    "decisive_accuracy": "Accuracy on conclusive answers",
-    "false_positive_rate": "False-positive rate",
-    "false_negative_rate": "False-negative rate",
-    "inconclusive_rate": "Inconclusive rate",
-    "d_prime": "Discriminability d\u2032",
-    "criterion": "Response bias c",
-    "auc": "Rating ROC area",
-    "conf_gap": "Confidence gap (right \u2212 wrong)",
-    "type2_auroc": "Type-2 ROC area",
-    "gamma": "Goodman\u2013Kruskal gamma",
-    "meta_d": "meta-d\u2032",
-    "m_ratio": "M-ratio (meta-d\u2032 / d\u2032)",
-    "mean_confidence_correct": "Mean confidence when right",
-    "mean_confidence_wrong": "Mean confidence when wrong",
-    "mean_confidence_inconclusive": "Mean confidence when inconclusive",
-    "overconfidence": "Over- / underconfidence",
-    "brier": "Brier score",
-    "ece": "Expected calibration error",
-}
-
-RATES = frozenset({"accuracy", "error_rate", "decisive_accuracy", "false_positive_rate",
-                   "false_negative_rate", "inconclusive_rate"})
-
-
-# ---------------------------------------------------------------------------------------------
-# Numbers
-
-
-def _finite(x: float | None) -> bool:
-    return x is not None and math.isfinite(x)
-
-
-def fmt_number(x: float | None, digits: int = 2) -> str:
-    """``1.2345 -> "1.23"``, ``-0.5 -> "−0.50"``; a value that rounds to zero loses its sign."""
-    if x is None or not _finite(x):
-        return DASH
-    text = f"{x:.{digits}f}"
-    if text.startswith("-"):
-        text = text[1:] if float(text) == 0 else MINUS + text[1:]
-    return text
-
-
-def fmt_signed(x: float | None, digits: int = 2) -> str:
-    """Like :func:`fmt_number` with an explicit ``+`` on positive values."""
-    text = fmt_number(x, digits)
-    if x is not None and _finite(x) and not text.startswith(MINUS) and float(text) != 0:
-        return "+" + text
-    return text
-
-
-def fmt_percent(p: float | None, digits: int = 1) -> str:
-    """A proportion as a percentage: ``0.85 -> "85.0 %"`` (no-break space)."""
-    if p is None or not _finite(p):
-        return DASH
-    return f"{fmt_number(100 * p, digits)}{NBSP}%"
-
-
-def fmt_interval(m: Metric, kind: str = "number", digits: int | None = None) -> str:
-    """The 95 % interval of ``m``: ``"74.3–91.9 %"`` for rates, ``"0.42 to 1.87"`` otherwise."""
-    if not (_finite(m.low) and _finite(m.high)):
-        return DASH
-    if kind == "percent":
-        d = 1 if digits is None else digits
-        return f"{fmt_number(100 * (m.low or 0.0), d)}\u2013{fmt_percent(m.high, d)}"
-    d = 2 if digits is None else digits
-    return f"{fmt_number(m.low, d)} to {fmt_number(m.high, d)}"
-
-
-def fmt_p(p: float | None) -> str:
-    """A p-value: ``"p = 0.047"``, ``"p < 0.001"``."""
-    if p is None or not _finite(p):
-        return DASH
-    return "p < 0.001" if p < 0.001 else f"p = {p:.3f}"
-
-
-def fmt_date(day: dt.date) -> str:
-    """``2026-05-15 -> "15 May 2026"`` without the locale."""
-    return f"{day.day} {_MONTHS[day.month - 1]} {day.year}"
-
-
-def fmt_value(name: str, m: Metric) -> str:
-    """A metric's value as the report shows it: rates in percent, the rest as numbers."""
-    if not m.estimable:
-        return DASH  # the reading beside it says why
-    return fmt_percent(m.value) if name in RATES else fmt_number(m.value)
-
-
-def count_of(k: int, n: int) -> str:
-    return f"{k} of {n}"
-
-
-def plural(n: int, one: str, many: str | None = None) -> str:
-    return f"{n} {one if n == 1 else (many or one + 's')}"
 
 
 # ---------------------------------------------------------------------------------------------
@@ -155,7 +53,7 @@ def _scale_unit(cfg: RoundConfig) -> str:
 def read_accuracy(c: Mapping[str, int], m: Metric) -> str:
     text = (f"You answered {count_of(c['correct'], c['items'])} items correctly "
             f"({fmt_percent(m.value)}).")
-    if _finite(m.low) and _finite(m.high):
+    if finite(m.low) and finite(m.high):
         text += (f" With this many items, your underlying rate could plausibly lie anywhere "
                  f"between {fmt_percent(m.low)} and {fmt_percent(m.high)}.")
     return text
@@ -299,7 +197,7 @@ def read_relative_insight(observed: Metric, expected: Metric) -> str:
     lo, hi = observed.low, observed.high
     ideal = ("an ideal observer with your d\u2032, your response bias and your use of the "
              f"confidence levels would reach about {exp}")
-    if lo is None or hi is None or not (_finite(lo) and _finite(hi)):
+    if lo is None or hi is None or not (finite(lo) and finite(hi)):
         text += (f"; {ideal}. Without an interval for your value, this round cannot tell "
                  "whether the difference is more than chance.")
     else:
@@ -353,7 +251,7 @@ def read_ece(m: Metric) -> str:
             f"probability by {fmt_number(100 * m.value, 1)} percentage points on average.")
 
 
-def readings(p: ParticipantResult, cfg: RoundConfig) -> dict[str, str]:
+def metric_readings(p: ParticipantResult, cfg: RoundConfig) -> dict[str, str]:
     """One plain-language line for every metric the certificate shows."""
     c, m = p.counts, p.metrics
     out = {

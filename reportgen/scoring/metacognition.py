@@ -1,8 +1,8 @@
 """Model-based insight per participant: meta-d′, M-ratio and the ideal observer's expectation.
 
 All participants' rating tables (conclusive answers) are fitted in one batch (Maniscalco & Lau
-2012, as pinned in DESIGN §3). Bootstrap seeds derive from the round's seed and the participant's
-code, so a participant's interval does not depend on who else took part.
+2012, as pinned in docs/design.md §3). Bootstrap seeds derive from the round's seed and the
+participant's code, so a participant's interval does not depend on who else took part.
 """
 
 from __future__ import annotations
@@ -12,11 +12,12 @@ from collections.abc import Sequence
 
 import numpy as np
 
-from reportgen.columns import Array, Column, Tables
-from reportgen.metrics.metad import fit_meta_d_many, ideal_observer, meta_d_interval
+from reportgen.metrics.ideal_observer import ideal_observer
+from reportgen.metrics.metad import fit_meta_d_many, meta_d_interval
+from reportgen.results import reasons
 from reportgen.rounds.schema import Scoring
+from reportgen.scoring.columns import Array, Column, Tables
 
-FEW_ERRORS_NOTE = "few errors: unstable"
 _UNEVEN_NOTE = "confidence levels are not evenly spaced"
 _IDEAL_NOTE = "needs d′ from conclusive answers on both classes and at least two confidence levels"
 
@@ -40,7 +41,7 @@ def insight_columns(tables: Tables, levels: Array, scoring: Scoring,
     even = bool(np.allclose(np.diff(levels), step))
     n_wrong = tables.wrong.sum(axis=1)  # conclusive errors: what the fits rest on
     for p, (code, fit) in enumerate(zip(codes, fits, strict=True)):
-        flag = FEW_ERRORS_NOTE if n_wrong[p] < scoring.few_errors else None
+        flag = reasons.FEW_ERRORS if n_wrong[p] < scoring.few_errors else None
         notes["meta_d"].append(fit.note if fit.meta_d is None else flag)
         notes["m_ratio"].append(fit.note if fit.m_ratio is None else flag)
         if fit.meta_d is not None:

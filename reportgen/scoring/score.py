@@ -1,4 +1,4 @@
-"""Score a validated round: every measure of DESIGN §3 for every participant, plus the group.
+"""Score a validated round: every measure of docs/design.md §3 for every participant and the group.
 
 Steps: (1) outcome masks over the participants x items matrices; (2) count tables per participant
 (by truth class, by confidence level); (3) the metrics, computed on whole arrays by
@@ -13,33 +13,36 @@ from typing import Literal
 
 import numpy as np
 import numpy.typing as npt
+from scipy import special
 
-from reportgen.columns import Column, Masks, Tables, counts, masks, tables
-from reportgen.criteria import judge
-from reportgen.group_views import ability_groups, ideal_curve, self_estimate_view
-from reportgen.insight import FEW_ERRORS_NOTE, insight_columns
+from reportgen.catalogue import INTERVAL_LEVEL, KNOWN_METRICS, METRIC_NAMES
 from reportgen.metrics.calibration import calibration
 from reportgen.metrics.insight import conf_gap, gamma_correct_confidence, type2_auroc
 from reportgen.metrics.insight import reason as insight_reason
-from reportgen.metrics.items import item_analysis
 from reportgen.metrics.proportions import proportion_ci
 from reportgen.metrics.sdt import rating_auc, sdt_loglinear
 from reportgen.metrics.uncertainty import hanley_mcneil_se, mean_difference
-from reportgen.names import KNOWN_METRICS, METRIC_NAMES
-from reportgen.results import (
+from reportgen.results import reasons
+from reportgen.results.model import (
     Distribution,
     GroupResult,
-    ItemResult,
     LevelRow,
     ParticipantResult,
     RoundResults,
 )
 from reportgen.rounds.model import Round
+from reportgen.scoring.columns import Column, Tables, counts, masks, tables
+from reportgen.scoring.criteria import judge
+from reportgen.scoring.group_views import ability_groups, ideal_curve, self_estimate_view
+from reportgen.scoring.items import item_results
+from reportgen.scoring.metacognition import insight_columns
 from reportgen.settings import Settings
 
 __all__ = ["KNOWN_METRICS", "METRIC_NAMES", "score_round"]
 
 Array = npt.NDArray[np.float64]
+Z = float(special.ndtri(0.5 + INTERVAL_LEVEL / 2))
+"""z of the two-sided interval level (1.959964 for 95 %)."""
 
 
 
@@ -82,17 +85,17 @@ def sdt_columns(c: Mapping[str, npt.NDArray[np.int64]], t: Tables) -> dict[str, 
     return {
         "hit_rate": Column(sdt.hit_rate, reason=reason),
         "false_alarm_rate": Column(sdt.fa_rate, reason=reason),
-        "d_prime": Column(sdt.d_prime, sdt.d_prime - 1.96 * se, sdt.d_prime + 1.96 * se,
+        "d_prime": Column(sdt.d_prime, sdt.d_prime - Z * se, sdt.d_prime + Z * se,
                           reason=reason),
         "criterion": Column(sdt.criterion, reason=reason),
-        "auc": Column(auc, np.clip(auc - 1.96 * auc_se, 0, 1), np.clip(auc + 1.96 * auc_se, 0, 1),
+        "auc": Column(auc, np.clip(auc - Z * auc_se, 0, 1), np.clip(auc + Z * auc_se, 0, 1),
                       reason="needs answers on both same- and different-source items"),
     }
 
 
 def confidence_columns(t: Tables, levels: Array, few_errors: int) -> dict[str, Column]:
-    """Insight from confidence on conclusive answers (DESIGN §3); estimates resting on fewer than
-    ``few_errors`` errors carry the note "few errors: unstable"."""
+    """Insight from confidence on conclusive answers (docs/design.md §3); estimates resting on
+    fewer than ``few_errors`` errors carry the note "few errors: unstable"."""
     def mean(counts: Array) -> Array:
         with np.errstate(divide="ignore", invalid="ignore"):
             result: Array = (counts * levels).sum(axis=1) / counts.sum(axis=1)
@@ -100,7 +103,7 @@ def confidence_columns(t: Tables, levels: Array, few_errors: int) -> dict[str, C
 
     gap = mean_difference(levels, t.correct, t.wrong)
     n_right, n_wrong = t.correct.sum(axis=1), t.wrong.sum(axis=1)
-    few = [FEW_ERRORS_NOTE if n < few_errors else None for n in n_wrong]
+    few = [reasons.FEW_ERRORS if n < few_errors else None for n in n_wrong]
     auroc2 = type2_auroc(t.correct, t.wrong)
     se2 = hanley_mcneil_se(auroc2, n_right, n_wrong)
     gap_value = conf_gap(t.correct, t.wrong, levels)
@@ -116,8 +119,8 @@ def confidence_columns(t: Tables, levels: Array, few_errors: int) -> dict[str, C
         "mean_confidence_inconclusive": Column(mean(t.inconclusive),
                                                reason="no inconclusive answers"),
         "conf_gap": Column(gap_value, gap.low, gap.high, notes=notes("conf_gap")),
-        "type2_auroc": Column(auroc2, np.clip(auroc2 - 1.96 * se2, 0, 1),
-                              np.clip(auroc2 + 1.96 * se2, 0, 1), notes=notes("type2_auroc")),
+        "type2_auroc": Column(auroc2, np.clip(auroc2 - Z * se2, 0, 1),
+                              np.clip(auroc2 + Z * se2, 0, 1), notes=notes("type2_auroc")),
         "gamma": Column(gamma, notes=notes("gamma")),
     }
 
@@ -173,37 +176,8 @@ def _distribution(values: Array) -> Distribution:
     )
 
 
-def _items(rnd: Round, m: Masks, accuracy: Array) -> tuple[ItemResult, ...]:
-    """Item analysis; 'strong' performers are the top quarter of the group by accuracy."""
-    strong = accuracy >= np.percentile(accuracy, 75) if accuracy.size else accuracy.astype(bool)
-    ia = item_analysis(m.correct, m.wrong, m.abstain, strong)
-    classes = rnd.config.classes
-    out = []
-    for i, item in enumerate(rnd.items):
-        flagged = bool(ia.flagged[i])
-        out.append(ItemResult(
-            item=item,
-            truth=classes.positive if rnd.truth[i] == 1 else classes.negative,
-            answered=int(ia.answered[i]),
-            correct=int(ia.n_correct[i]),
-            wrong=int(ia.n_wrong[i]),
-            inconclusive=int(ia.n_inconclusive[i]),
-            difficulty=_opt(ia.difficulty[i]),
-            discrimination=_opt(ia.discrimination[i]),
-            inconclusive_rate=_opt(ia.inconclusive_rate[i]),
-            flagged=flagged,
-            flag_reason=(f"{ia.strong_against[i]:.0%} of the strongest quarter answered against "
-                         "the key" if flagged else None),
-        ))
-    return tuple(out)
-
-
-def _opt(x: float) -> float | None:
-    return float(x) if np.isfinite(x) else None
-
-
 def score_round(rnd: Round, settings: Settings) -> RoundResults:
-    """Every measure of DESIGN §3 for every participant of ``rnd``, the items and the group."""
+    """Every measure of docs/design.md §3 for each participant of ``rnd``, the items, the group."""
     cfg = rnd.config
     m = masks(rnd)
     t = tables(m)
@@ -232,7 +206,6 @@ def score_round(rnd: Round, settings: Settings) -> RoundResults:
             levels=_levels(t, p, m.levels, probs),
             criteria=verdicts.outcomes[p],
             overall=verdicts.overall[p],
-            overall_text=verdicts.overall_text[p],
             rating_noise=tuple(int(x) for x in t.rating_noise[p]),
             rating_signal=tuple(int(x) for x in t.rating_signal[p]),
         )
@@ -254,4 +227,4 @@ def score_round(rnd: Round, settings: Settings) -> RoundResults:
         ability_groups=ability_groups(columns),
         ideal_curve=ideal_curve(m.levels.size),
     )
-    return RoundResults(rnd, participants, _items(rnd, m, columns["accuracy"].value), group)
+    return RoundResults(rnd, participants, item_results(rnd, m, columns["accuracy"].value), group)

@@ -1,11 +1,14 @@
 """Typed, frozen results of scoring a round: what rendering and writing consume.
 
-Every per-participant measure is a :class:`Metric` under the name DESIGN §3 gives it, so the JSON,
-the workbook, the criteria and the templates all look values up by the same names.
+Every per-participant measure is a :class:`Metric` under its name in :mod:`reportgen.catalogue`,
+so the JSON, the workbook, the criteria and the templates all look values up by the same names.
+Results hold numbers and reason phrases (:mod:`reportgen.results.reasons`), never sentences:
+those are made by :mod:`reportgen.render.wording`.
 """
 
 from __future__ import annotations
 
+import datetime as dt
 from collections.abc import Mapping
 from dataclasses import dataclass
 from typing import Literal
@@ -45,7 +48,8 @@ class CriterionOutcome:
     metric: str
     value: float | None
     outcome: Outcome
-    detail: str
+    z: float | None = None  # z-score rules: the participant's robust z
+    reason: str | None = None  # why "not assessable": a phrase of reportgen.results.reasons
 
 
 @dataclass(frozen=True)
@@ -71,7 +75,6 @@ class ParticipantResult:
     levels: tuple[LevelRow, ...]
     criteria: tuple[CriterionOutcome, ...]
     overall: Overall
-    overall_text: str
     # Conclusive answers by rating, "sure different" ... "sure same" (2K cells), on different- and
     # on same-source items: the table meta-d′ is fitted on, kept so rounds can be pooled.
     rating_noise: tuple[int, ...] = ()
@@ -90,7 +93,7 @@ class ItemResult:
     discrimination: float | None  # corrected item-total (point-biserial) correlation
     inconclusive_rate: float | None
     flagged: bool  # many strong performers answered against the key: review before release
-    flag_reason: str | None
+    strong_against: float | None  # share of the strongest quarter that answered against the key
 
 
 @dataclass(frozen=True)
@@ -115,7 +118,6 @@ class SelfEstimateView:
     source: EstimateSource
     score_name: str  # the metric the estimates are set against
     view: QuartileView
-    reading: str
 
 
 @dataclass(frozen=True)
@@ -148,3 +150,14 @@ class RoundResults:
     participants: tuple[ParticipantResult, ...]
     items: tuple[ItemResult, ...]
     group: GroupResult
+
+
+@dataclass(frozen=True)
+class PreviousRound:
+    """One earlier archived round of the same participant, for the "previous rounds" block."""
+
+    round_id: str
+    issued: dt.date
+    accuracy: Metric
+    type2_auroc: Metric
+    overall: str

@@ -12,7 +12,7 @@ from dataclasses import dataclass
 import numpy as np
 import numpy.typing as npt
 
-from reportgen.results import Metric
+from reportgen.results.model import Metric
 from reportgen.rounds.model import ABSTAINED, SAID_NEGATIVE, SAID_POSITIVE, Round
 
 Array = npt.NDArray[np.float64]

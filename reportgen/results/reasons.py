@@ -1,0 +1,15 @@
+"""Why a value is not estimable or not assessable: the short reason phrases results carry.
+
+These phrases are the reason codes of the results: they appear as ``<name>_note`` in
+results.json, in the workbook and after "not estimable" on reports. Each lives here once.
+"""
+
+from __future__ import annotations
+
+from reportgen.metrics.robust import MIN_GROUP
+
+FEW_ERRORS = "few errors: unstable"
+NO_ERRORS = "no errors"
+FEW_IN_GROUP = f"fewer than {MIN_GROUP} estimable results in the group"
+ROBUST_SD_ZERO = "the group's robust standard deviation is 0"
+NOT_ESTIMABLE = "not estimable"
