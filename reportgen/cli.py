@@ -56,56 +56,126 @@ def _print_problems(problems: Sequence[Problem], stream: TextIO) -> None:
         stream.write(f"  warning: {p}\n")
 
 
+def _default_jobs() -> int:
+    """The CPUs this process may run on (its affinity where the system tells it)."""
+    affinity = getattr(os, "sched_getaffinity", None)
+    if affinity is not None:
+        return max(1, len(affinity(0)))
+    return max(1, os.cpu_count() or 1)
+
+
 def _parser() -> argparse.ArgumentParser:
     parser = argparse.ArgumentParser(
         prog="reportgen",
         description="Score a proficiency-testing round and issue its reports.",
+        epilog="Exit status: 0 done, 1 verify found a difference, 2 a problem in the input or "
+        "the output folder (nothing was written), 3 an internal error.",
     )
     parser.add_argument("--version", action="version", version=f"reportgen {__version__}")
     sub = parser.add_subparsers(dest="command", required=True, metavar="COMMAND")
 
-    def common(p: argparse.ArgumentParser, out: bool = True) -> None:
-        if out:
-            p.add_argument("-o", "--out", type=Path, required=True, help="output folder")
-        p.add_argument("--config", type=Path, help="provider settings file (TOML)")
-        p.add_argument("--quiet", action="store_true", help="no progress bar")
-        p.add_argument("--jobs", type=int, default=1, help="worker processes (default 1)")
+    def config(p: argparse.ArgumentParser) -> None:
+        p.add_argument("--config", type=Path, metavar="FILE",
+                       help="provider settings file (TOML) overriding the built-in defaults: "
+                       "[templates] override_dir, [report], [archive]; see docs/settings.md")
 
-    p = sub.add_parser("check", help="read and validate a round folder; write nothing")
-    p.add_argument("round", type=Path)
-    common(p, out=False)
-    p = sub.add_parser("score", help="write results.json, results.xlsx and manifest.json")
-    p.add_argument("round", type=Path)
-    common(p)
+    def out(p: argparse.ArgumentParser) -> None:
+        p.add_argument("-o", "--out", type=Path, required=True, metavar="OUT",
+                       help="output folder: new, empty, or an earlier reportgen output, "
+                       "which is replaced as a whole once the new output is complete")
+
+    def runs(p: argparse.ArgumentParser) -> None:
+        p.add_argument("--quiet", action="store_true", help="no progress bar on stderr")
+
+    def jobs(p: argparse.ArgumentParser) -> None:
+        p.add_argument("--jobs", type=int, default=None, metavar="N",
+                       help="worker processes rendering documents (default: the CPUs "
+                       f"available, here {_default_jobs()})")
+
+    def archive(p: argparse.ArgumentParser, required: bool) -> None:
+        p.add_argument("--archive", type=Path, required=required, metavar="FILE",
+                       help="the SQLite archive of issued rounds" + (
+                           "" if required else " (default: the [archive] path of the settings, "
+                           "inside OUT)"))
+
+    def replace(p: argparse.ArgumentParser) -> None:
+        p.add_argument("--replace", action="store_true",
+                       help="the round is already archived with other inputs: record these "
+                       "corrected inputs as a new version (the earlier one is kept)")
+
+    def round_arg(p: argparse.ArgumentParser) -> None:
+        p.add_argument("round", type=Path, metavar="ROUND",
+                       help="round folder (round.toml and its tables; docs/round-format.md)")
+
+    p = sub.add_parser("check", help="read and validate a round folder; write nothing",
+                       description="Read and validate a round folder and report every problem "
+                       "at once; nothing is written.")
+    round_arg(p)
+    config(p)
+    p = sub.add_parser("score", help="write results.json, results.xlsx and manifest.json",
+                       description="Score a round: results.json, results.xlsx, manifest.json.")
+    round_arg(p)
+    out(p)
+    config(p)
+    runs(p)
     p = sub.add_parser("issue", help="score, render certificates and the group appendix, and "
-                       "record the round in the archive")
-    p.add_argument("round", type=Path)
-    common(p)
-    p.add_argument("--archive", type=Path, help="archive file (default: [archive] path of the "
-                   "settings, inside OUT)")
-    p.add_argument("--replace", action="store_true",
-                   help="record corrected inputs of an archived round as a new version")
-    p = sub.add_parser("record", help="score a round and store it in the archive only")
-    p.add_argument("round", type=Path)
-    p.add_argument("--archive", type=Path, required=True)
-    p.add_argument("--replace", action="store_true")
-    p.add_argument("--config", type=Path, help="provider settings file (TOML)")
-    p = sub.add_parser("trend", help="one examiner's rounds from the archive: trend report")
-    p.add_argument("participant")
-    p.add_argument("--archive", type=Path, required=True)
-    p.add_argument("-o", "--out", type=Path, required=True, help="output folder")
-    p.add_argument("--last", type=int, help="pool insight over the last N rounds only")
-    p.add_argument("--config", type=Path, help="provider settings file (TOML)")
-    p = sub.add_parser("verify", help="check an output folder against its manifest")
-    p.add_argument("out", type=Path)
-    p = sub.add_parser("demo", help="run the newest sample round end to end")
-    p.add_argument("-o", "--out", type=Path, default=Path("demo-output"))
-    common(p, out=False)
+                       "record the round in the archive",
+                       description="Score a round, render a certificate per participant and "
+                       "the group appendix (HTML and PDF), and record the round in the archive.")
+    round_arg(p)
+    out(p)
+    config(p)
+    runs(p)
+    jobs(p)
+    archive(p, required=False)
+    replace(p)
+    p = sub.add_parser("record", help="score a round and store it in the archive only",
+                       description="Score a round and store it in the archive without issuing "
+                       "anything (e.g. rounds issued before reportgen was used).")
+    round_arg(p)
+    archive(p, required=True)
+    replace(p)
+    config(p)
+    p = sub.add_parser("trend", help="one examiner's rounds from the archive: trend report",
+                       description="One examiner's rounds from the archive as a trend report "
+                       "(HTML and PDF).")
+    p.add_argument("participant", metavar="CODE", help="the participant's code (as archived)")
+    archive(p, required=True)
+    out(p)
+    p.add_argument("--last", type=int, metavar="N",
+                   help="pool insight over the last N rounds only (default: all rounds)")
+    config(p)
+    p = sub.add_parser("verify", help="check an output folder against its manifest",
+                       description="Recompute every checksum of an output folder and name any "
+                       "file altered, added or missing.")
+    p.add_argument("out", type=Path, metavar="OUT", help="an output folder written by reportgen")
+    p = sub.add_parser("demo", help="run the newest sample round end to end",
+                       description="Archive the earlier sample rounds, then issue the newest "
+                       "one into OUT.")
+    p.add_argument("-o", "--out", type=Path, default=Path("demo-output"), metavar="OUT",
+                   help="output folder (default: demo-output)")
+    config(p)
+    runs(p)
+    jobs(p)
     return parser
 
 
+def _check(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
+    """``check`` reads the round only: no scoring, rendering or archive module is imported."""
+    from reportgen.rounds.folder import open_round
+
+    load_settings(args.config)  # a settings file given here is validated too
+    rnd = open_round(args.round)
+    _print_problems(rnd.warnings, err)
+    out.write(f"{args.round}: no problems found ({rnd.n_participants} participants, "
+              f"{rnd.n_items} items)\n")
+    return EXIT_OK
+
+
 def _run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
-    from reportgen import pipeline  # imported here so --help stays fast
+    if args.command == "check":
+        return _check(args, out, err)
+    from reportgen import pipeline  # imported here so --help and check stay fast
 
     if args.command == "verify":
         result = verify(args.out)
@@ -129,22 +199,17 @@ def _run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
         out.write(f"wrote the trend report of {args.participant} to {summary.out}\n")
         return EXIT_OK
     progress = ProgressBar(err, args.quiet)
-    if args.command == "check":
-        rnd = pipeline.load(args.round)
-        _print_problems(rnd.warnings, err)
-        out.write(f"{args.round}: no problems found ({rnd.n_participants} participants, "
-                  f"{rnd.n_items} items)\n")
-        return EXIT_OK
-    if args.jobs < 1:
+    jobs = _default_jobs() if getattr(args, "jobs", None) is None else args.jobs
+    if jobs < 1:
         err.write("--jobs must be at least 1\n")
         return EXIT_INPUT
     if args.command == "score":
         summary = pipeline.score(args.round, args.out, settings, progress)
     elif args.command == "issue":
-        summary = pipeline.issue(args.round, args.out, settings, jobs=args.jobs,
+        summary = pipeline.issue(args.round, args.out, settings, jobs=jobs,
                                  progress=progress, archive=args.archive, replace=args.replace)
     else:  # demo
-        summary = pipeline.demo(args.out, settings, jobs=args.jobs, progress=progress)
+        summary = pipeline.demo(args.out, settings, jobs=jobs, progress=progress)
     _print_problems(summary.warnings, err)
     out.write(f"wrote {len(summary.files)} files for {summary.n_participants} participants "
               f"to {summary.out}\n")

@@ -12,6 +12,7 @@
 
 from __future__ import annotations
 
+import contextlib
 import ctypes
 import errno
 import fcntl
@@ -88,19 +89,7 @@ class Staging:
         if self.out.exists() and not self.out.is_dir():
             raise OutputError(f"{self.out} exists and is not a folder")
         _refuse_foreign(self.out)  # before the lock file is made beside it; again under the lock
-        try:
-            self.parent.mkdir(parents=True, exist_ok=True)
-            fd = os.open(self.lock_path, os.O_RDWR | os.O_CREAT, 0o644)
-        except OSError as exc:
-            raise OutputError(f"cannot write in {self.parent}: {exc.strerror}") from exc
-        try:
-            fcntl.flock(fd, fcntl.LOCK_EX | fcntl.LOCK_NB)
-        except BlockingIOError as exc:
-            os.close(fd)
-            raise OutputError(
-                f"another reportgen run is writing {self.out} right now; wait for it to finish"
-            ) from exc
-        self._lock_fh = fd
+        self._lock_fh = self._lock()
         try:
             self._recover()
             _refuse_foreign(self.out)
@@ -135,8 +124,36 @@ class Staging:
         finally:
             self._unlock()
 
+    def _lock(self) -> int:
+        """Create and lock ``.OUT.lock`` beside OUT. The file is removed again on unlock, so a
+        lock taken on a file that another run has just removed is dropped and taken anew."""
+        for _ in range(100):
+            try:
+                self.parent.mkdir(parents=True, exist_ok=True)
+                fd = os.open(self.lock_path, os.O_RDWR | os.O_CREAT, 0o644)
+            except OSError as exc:
+                raise OutputError(f"cannot write in {self.parent}: {exc.strerror}") from exc
+            try:
+                fcntl.flock(fd, fcntl.LOCK_EX | fcntl.LOCK_NB)
+            except BlockingIOError as exc:
+                os.close(fd)
+                raise OutputError(
+                    f"another reportgen run is writing {self.out} right now; wait for it to "
+                    "finish") from exc
+            try:
+                same = os.path.samestat(os.fstat(fd), os.stat(self.lock_path))
+            except FileNotFoundError:
+                same = False
+            if same:
+                return fd
+            os.close(fd)  # the file was removed by a run that just finished: lock the new one
+        raise OutputError(f"cannot lock {self.lock_path}: it keeps being replaced")
+
     def _unlock(self) -> None:
+        """Remove the lock file (while still holding the lock), then release it."""
         if self._lock_fh is not None:
+            with contextlib.suppress(FileNotFoundError):
+                os.unlink(self.lock_path)
             fcntl.flock(self._lock_fh, fcntl.LOCK_UN)
             os.close(self._lock_fh)
             self._lock_fh = None

@@ -14,7 +14,6 @@ from pathlib import Path
 
 from reportgen import archive as history
 from reportgen.archive.trend import build_trend
-from reportgen.catalogue import KNOWN_METRICS
 from reportgen.errors import InputError, Problem
 from reportgen.output import ManifestInput, Staging, manifest, sha256_bytes, sha256_file
 from reportgen.render.batch import output_names, render_documents
@@ -24,7 +23,7 @@ from reportgen.render.trend import render_trend_html
 from reportgen.render.workbook import results_workbook
 from reportgen.resources import config_dir, sample_rounds_dir
 from reportgen.results.model import RoundResults
-from reportgen.rounds.load import load_round
+from reportgen.rounds.folder import open_round
 from reportgen.rounds.model import Round
 from reportgen.rounds.tables import ReadLimits
 from reportgen.scoring.score import score_round
@@ -49,9 +48,7 @@ class RunSummary:
 
 def load(folder: Path, limits: ReadLimits | None = None) -> Round:
     """Read and validate a round folder; raises InputError with every problem found."""
-    if not folder.is_dir():
-        raise InputError.single(str(folder), "round folder not found (or not a folder)")
-    return load_round(folder, KNOWN_METRICS, limits)
+    return open_round(folder, limits)
 
 
 def score_folder(folder: Path, settings: Settings | None = None) -> RoundResults:

@@ -130,7 +130,7 @@ class Rig:
     def rerun_succeeds(self) -> None:
         assert main(["score", str(self.v2), "-o", str(self.out), "--quiet"]) == 0
         assert self.state() == "v2"
-        assert sorted(p.name for p in self.out.parent.iterdir()) == [".out.lock", "out"]
+        assert sorted(p.name for p in self.out.parent.iterdir()) == ["out"]
 
 
 def _make_rounds(root: Path) -> tuple[Path, Path, Path]:

@@ -31,7 +31,7 @@ def test_staging_replaces_out_only_when_complete(tmp_path: Path) -> None:
     with pytest.raises(RuntimeError):
         interrupted()
     assert (out / "a.txt").read_bytes() == b"first"  # the previous complete output
-    assert sorted(p.name for p in tmp_path.iterdir()) == [".out.lock", "out"]
+    assert sorted(p.name for p in tmp_path.iterdir()) == ["out"]
 
 
 def test_recovers_when_killed_between_renames(tmp_path: Path) -> None:

@@ -34,6 +34,7 @@ import numpy.typing as npt
 from scipy import special
 
 from reportgen.metrics.metad_fit import Batch, edges_of, fit_batch
+from reportgen.metrics.stability import FEW_ERRORS_THRESHOLD
 
 FloatArray = npt.NDArray[np.float64]
 BoolArray = npt.NDArray[np.bool_]
@@ -56,20 +57,6 @@ ratio, as in the authors' code.
 0.3 is about one standard error of d′ at d′ = 0 for a 60-item round (30 + 30 conclusive answers:
 Gourevitch–Galanter SE ≈ 0.32), i.e. a d′ this small cannot be told from chance, and a ratio with
 such a denominator swings without bound."""
-
-FEW_ERRORS_THRESHOLD = 11
-"""Fewer conclusive errors than this: meta-d′ and the M-ratio are flagged as unstable.
-
-Basis: ``scripts/simulate_metad_stability.py`` (numbers in ``docs/metacognition.md``). Ideal
-observers (true M-ratio 1), 60 items, K = 5, d′ ~ U(1.5, 2): among those who made e errors, fewer
-than 90 % get an M-ratio within a factor of two of the truth (0.5–2) for every e ≤ 10 (89 % at 10,
-67 % at 5), and the median is biased low (0.86 at 10 errors, 0.60 at 5): with few errors, a lucky
-run inflates d′ and an ideal observer looks like a poor one. At 11–17 errors 91–95 % (above that,
-such a participant's d′ is small and the ratio widens for that reason). The cut depends on the
-design (5–14 errors for other populations and round lengths, see the note); no published minimum
-was found."""
-
-
 
 @dataclass(frozen=True)
 class MetaDResult:

@@ -59,25 +59,42 @@ def load_config(folder: Path, known_metrics: frozenset[str]) -> RoundConfig:
     except RecursionError as exc:  # tomllib recurses once per level of nested arrays/tables
         raise InputError.single(ROUND_FILE, "TOML syntax error: arrays or tables are nested "
                                 "too deeply to be round settings") from exc
+    # The checks that need more than the schema run on the raw table too, so that one wrong
+    # setting never hides another (a bad accent colour and a bad logo are reported together).
+    extra = _unknown_metrics(data, known_metrics) + _raw_logo_problem(folder, data)
     try:
         config = RoundConfig.model_validate(data)
     except ValidationError as exc:
-        raise InputError(_validation_problems(exc)) from exc
-    unknown = [
+        raise InputError(_validation_problems(exc) + extra) from exc
+    if extra:
+        raise InputError(extra)
+    return config
+
+
+def _unknown_metrics(data: dict[str, object], known_metrics: frozenset[str]) -> list[Problem]:
+    criteria = data.get("criteria")
+    if not isinstance(criteria, list):
+        return []
+    return [
         Problem(
             file=ROUND_FILE,
             column=f"criteria.{n}.metric",
-            value=c.metric,
-            message=f"criterion {c.id!r} names an unknown metric",
+            value=c["metric"],
+            message=f"criterion {c.get('id')!r} names an unknown metric",
             allowed=", ".join(sorted(known_metrics)),
         )
-        for n, c in enumerate(config.criteria)
-        if c.metric not in known_metrics
+        for n, c in enumerate(criteria)
+        if isinstance(c, dict) and isinstance(c.get("metric"), str)
+        and c["metric"] not in known_metrics
     ]
-    logo = _logo_problem(folder, config.provider.logo)
-    if unknown or logo:
-        raise InputError(unknown + logo)
-    return config
+
+
+def _raw_logo_problem(folder: Path, data: dict[str, object]) -> list[Problem]:
+    provider = data.get("provider")
+    logo = provider.get("logo") if isinstance(provider, dict) else None
+    if not isinstance(logo, str) or any(ord(ch) < 32 for ch in logo):
+        return []  # absent, or a type / control-character problem the schema reports
+    return _logo_problem(folder, logo)
 
 
 def _read_text(path: Path, folder: Path) -> str:

@@ -19,7 +19,7 @@ from pydantic import (
     model_validator,
 )
 
-from reportgen.metrics.metad import FEW_ERRORS_THRESHOLD
+from reportgen.metrics.stability import FEW_ERRORS_THRESHOLD
 
 ABSTAIN = "inconclusive"
 """What a decision label maps to when it is an abstention rather than a claim about a class."""
