@@ -58,6 +58,13 @@ COUNTS: tuple[MetricSpec, ...] = (
     _count("errors", "Errors"),
     _count("inconclusive", "Inconclusive"),
     _count("missing", "Not answered"),
+    _count("missing_same", "Not answered, same-source items"),
+    _count("missing_different", "Not answered, different-source items"),
+    _count("n_items", "Items in the round"),
+    _count("n_answered", "Items answered"),
+    _count("complete", "Complete submission (1 = every item answered)"),
+    _count("in_group", "In the group statistics (1 = at least [scoring] min_answered of the "
+           "items answered)"),
     _count("n_same", "Same-source items"),
     _count("n_different", "Different-source items"),
     _count("correct_same", "Correct on same-source items"),
@@ -68,10 +75,28 @@ COUNTS: tuple[MetricSpec, ...] = (
     _count("inconclusive_different", "Inconclusive on different-source items"),
 )
 
+MAX_STRENGTH = 10
+"""Strengths of a graded conclusion scale run 1 .. 10 (= reportgen.rounds.schema.MAX_STRENGTH)."""
+STRENGTH_COUNTS: tuple[MetricSpec, ...] = (
+    MetricSpec("strongest_errors", "count", "Errors at the strongest level",
+               "Strongest-level errors",
+               "conclusive errors given at the strongest level of the class asserted "
+               "(graded conclusion scales)", "descriptive"),
+    *(MetricSpec(f"errors_at_strength_{s}", "count", f"Errors at strength {s}",
+                 f"Errors, strength {s}",
+                 f"conclusive errors given at strength {s} (1 = weakest; graded conclusion "
+                 "scales)", "descriptive")
+      for s in range(1, MAX_STRENGTH + 1)),
+)
+"""Errors by strength: counted only on a graded conclusion scale (``[decisions]`` with
+strengths), where a strong wrong conclusion weighs more than a limited one."""
+
 METRICS: tuple[MetricSpec, ...] = (
     MetricSpec("accuracy", "rate", "Accuracy (correct / all items)", "Accuracy",
                "correct / items; 95 % interval by the score method", _WILSON,
                "decisions", appendix=1),
+    MetricSpec("answered_accuracy", "rate", "Accuracy on answered items",
+               "Accuracy on answered items", "correct / items answered", _WILSON),
     MetricSpec("error_rate", "rate", "Error rate (errors / all items)", "Error rate",
                "errors / items (inconclusive is not an error unless round.toml says so)", _WILSON,
                "decisions", appendix=2),
@@ -79,11 +104,11 @@ METRICS: tuple[MetricSpec, ...] = (
                "Accuracy on conclusive answers", "correct / (correct + errors)", _WILSON,
                "decisions", appendix=6),
     MetricSpec("false_positive_rate", "rate", "False-positive rate", "False-positive rate",
-               "'same' answers on different-source items / different-source items",
+               "'same' answers on different-source items / different-source items answered",
                "Forensic black-box study convention (common practice); " + _WILSON,
                "decisions", appendix=3),
     MetricSpec("false_negative_rate", "rate", "False-negative rate", "False-negative rate",
-               "'different' answers on same-source items / same-source items",
+               "'different' answers on same-source items / same-source items answered",
                "Forensic black-box study convention (common practice); " + _WILSON,
                "decisions", appendix=4),
     MetricSpec("inconclusive_rate", "rate", "Inconclusive rate", "Inconclusive rate",
@@ -127,11 +152,16 @@ METRICS: tuple[MetricSpec, ...] = (
                "insight", appendix=12),
     MetricSpec("meta_d", "number", "meta-d\u2032", "meta-d\u2032",
                "maximum-likelihood fit of the type-2 rating table with d\u2032 and c fixed, "
-               "meta-c\u2032 = c\u2032, 1/(2K) added to every cell",
-               "Maniscalco & Lau (2012), Conscious Cogn 21:422", "insight", appendix=13),
+               "meta-c\u2032 = c\u2032, 1/(2K) added to every cell; 95 % interval by profile "
+               "likelihood",
+               "Maniscalco & Lau (2012), Conscious Cogn 21:422; interval: Wilks (1938), "
+               "Ann Math Stat 9:60", "insight", appendix=13),
     MetricSpec("m_ratio", "number", "M-ratio (meta-d\u2032 / d\u2032)", "M-ratio",
-               "meta-d\u2032 / d\u2032 of the same (padded) table",
-               "Maniscalco & Lau (2012); Fleming & Lau (2014)", "insight", appendix=14),
+               "meta-d\u2032 / d\u2032 of the same (padded) table; 95 % interval: the "
+               "meta-d\u2032 interval over d\u2032, widened by the standard error of d\u2032 "
+               "(delta method)",
+               "Maniscalco & Lau (2012); Fleming & Lau (2014); SE of d\u2032: Gourevitch & "
+               "Galanter (1967), Psychometrika 32:25", "insight", appendix=14),
     MetricSpec("expected_type2_auroc", "number", "Expected type-2 ROC area",
                "Expected type-2 ROC area",
                "type-2 ROC area of an ideal observer with the participant's d\u2032 and c "
@@ -156,10 +186,10 @@ METRICS: tuple[MetricSpec, ...] = (
                "Naeini, Cooper & Hauskrecht (2015), AAAI", "calibration", appendix=17),
 )
 
-CATALOGUE: tuple[MetricSpec, ...] = COUNTS + METRICS
+CATALOGUE: tuple[MetricSpec, ...] = COUNTS + STRENGTH_COUNTS + METRICS
 BY_NAME: Mapping[str, MetricSpec] = {m.name: m for m in CATALOGUE}
 
-COUNT_NAMES: tuple[str, ...] = tuple(m.name for m in COUNTS)
+COUNT_NAMES: tuple[str, ...] = tuple(m.name for m in COUNTS + STRENGTH_COUNTS)
 METRIC_NAMES: tuple[str, ...] = tuple(m.name for m in METRICS)  # report order
 RATE_NAMES: tuple[str, ...] = tuple(m.name for m in METRICS if m.kind == "rate")
 RATES: frozenset[str] = frozenset(RATE_NAMES)

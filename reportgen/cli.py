@@ -7,16 +7,20 @@ Exit status: 0 done; 1 ``verify`` found a difference; 2 input or output problem 
 from __future__ import annotations
 
 import argparse
+import datetime as dt
 import os
 import sys
 from collections.abc import Sequence
 from pathlib import Path
-from typing import TextIO
+from typing import TYPE_CHECKING, TextIO
 
 from reportgen import __version__
 from reportgen.errors import BuildError, InputError, OutputError, Problem
 from reportgen.output import verify
 from reportgen.settings import load_settings
+
+if TYPE_CHECKING:
+    from reportgen.signing import Signer
 
 EXIT_OK, EXIT_DIFFERS, EXIT_INPUT, EXIT_INTERNAL = 0, 1, 2, 3
 
@@ -64,6 +68,13 @@ def _default_jobs() -> int:
     return max(1, os.cpu_count() or 1)
 
 
+def _date(text: str) -> dt.date:
+    try:
+        return dt.date.fromisoformat(text)
+    except ValueError as exc:
+        raise argparse.ArgumentTypeError(f"not a date of the form YYYY-MM-DD: {text!r}") from exc
+
+
 def _parser() -> argparse.ArgumentParser:
     parser = argparse.ArgumentParser(
         prog="reportgen",
@@ -103,6 +114,12 @@ def _parser() -> argparse.ArgumentParser:
                        help="the round is already archived with other inputs: record these "
                        "corrected inputs as a new version (the earlier one is kept)")
 
+    def sign(p: argparse.ArgumentParser) -> None:
+        p.add_argument("--sign", type=Path, metavar="KEY.p12",
+                       help="sign every PDF (PAdES) and manifest.json with this PKCS#12 key file; "
+                       "the passphrase is read from the environment variable "
+                       "REPORTGEN_SIGN_PASSPHRASE, never from the command line")
+
     def round_arg(p: argparse.ArgumentParser) -> None:
         p.add_argument("round", type=Path, metavar="ROUND",
                        help="round folder (round.toml and its tables; docs/round-format.md)")
@@ -129,6 +146,13 @@ def _parser() -> argparse.ArgumentParser:
     jobs(p)
     archive(p, required=False)
     replace(p)
+    p.add_argument("--reason", metavar="TEXT",
+                   help="with --replace: why the reports are amended; printed on every "
+                   "amended report and kept in the archive")
+    sign(p)
+    p.add_argument("--amended-on", type=_date, metavar="DATE",
+                   help="with --replace: the date of the amendment, YYYY-MM-DD (reportgen never "
+                   "reads the clock)")
     p = sub.add_parser("record", help="score a round and store it in the archive only",
                        description="Score a round and store it in the archive without issuing "
                        "anything (e.g. rounds issued before reportgen was used).")
@@ -142,6 +166,7 @@ def _parser() -> argparse.ArgumentParser:
     p.add_argument("participant", metavar="CODE", help="the participant's code (as archived)")
     archive(p, required=True)
     out(p)
+    sign(p)
     p.add_argument("--last", type=int, metavar="N",
                    help="pool insight over the last N rounds only (default: all rounds)")
     config(p)
@@ -149,6 +174,13 @@ def _parser() -> argparse.ArgumentParser:
                        description="Recompute every checksum of an output folder and name any "
                        "file altered, added or missing.")
     p.add_argument("out", type=Path, metavar="OUT", help="an output folder written by reportgen")
+    p = sub.add_parser("forms", help="write a response form (.xlsx) for every participant",
+                       description="Write one response form per participant of the "
+                       "participants file into OUT: code and items filled in and locked, "
+                       "decisions as a drop-down, confidence and estimate validated. Name the "
+                       "returned forms in round.toml ([files] responses = \"returned/*.xlsx\").")
+    round_arg(p)
+    out(p)
     p = sub.add_parser("demo", help="run the newest sample round end to end",
                        description="Archive the earlier sample rounds, then issue the newest "
                        "one into OUT.")
@@ -158,6 +190,15 @@ def _parser() -> argparse.ArgumentParser:
     runs(p)
     jobs(p)
     return parser
+
+
+def _signer(args: argparse.Namespace) -> Signer | None:
+    """The key of ``--sign`` (pyHanko loads only when one is given)."""
+    if getattr(args, "sign", None) is None:
+        return None
+    from reportgen import signing
+
+    return signing.load_signer(args.sign)
 
 
 def _check(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
@@ -177,12 +218,20 @@ def _run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
         return _check(args, out, err)
     from reportgen import pipeline  # imported here so --help and check stay fast
 
+    if args.command == "forms":
+        made = pipeline.forms(args.round, args.out)
+        out.write(f"wrote {len(made.files)} response forms to {made.out}\n")
+        return EXIT_OK
     if args.command == "verify":
         result = verify(args.out)
         for label, names in (("altered", result.altered), ("missing", result.missing),
                              ("added", result.added)):
             for name in names:
                 out.write(f"{label}: {name}\n")
+        for name, why in result.bad_signatures:
+            out.write(f"signature: {name}: {why}\n")
+        if result.signed_by:
+            out.write(f"{result.signed_by}\n")
         if result.intact:
             out.write(f"intact: all {result.checked} files match {args.out}/manifest.json\n")
             return EXIT_OK
@@ -195,7 +244,7 @@ def _run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
         return EXIT_OK
     if args.command == "trend":
         summary = pipeline.trend(args.participant, args.archive, args.out, settings,
-                                 last_n=args.last)
+                                 last_n=args.last, signer=_signer(args))
         out.write(f"wrote the trend report of {args.participant} to {summary.out}\n")
         return EXIT_OK
     progress = ProgressBar(err, args.quiet)
@@ -207,7 +256,9 @@ def _run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
         summary = pipeline.score(args.round, args.out, settings, progress)
     elif args.command == "issue":
         summary = pipeline.issue(args.round, args.out, settings, jobs=jobs,
-                                 progress=progress, archive=args.archive, replace=args.replace)
+                                 progress=progress, archive=args.archive, replace=args.replace,
+                                 reason=args.reason, amended_on=args.amended_on,
+                                 signer=_signer(args))
     else:  # demo
         summary = pipeline.demo(args.out, settings, jobs=jobs, progress=progress)
     _print_problems(summary.warnings, err)

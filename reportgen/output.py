@@ -31,9 +31,11 @@ from types import TracebackType
 from reportgen.errors import OutputError
 
 MANIFEST = "manifest.json"
+MANIFEST_SIGNATURE = "manifest.json.p7s"  # the manifest's detached signature (docs/signing.md)
 MANIFEST_FORMAT = "reportgen-manifest/1"
 _PACKAGES = ("reportgen", "numpy", "scipy", "pydantic", "openpyxl", "python-calamine",
-             "defusedxml", "jinja2", "weasyprint", "altair", "vl-convert-python")
+             "defusedxml", "jinja2", "weasyprint", "altair", "vl-convert-python", "pyhanko",
+             "cryptography")
 
 
 def sha256_bytes(data: bytes) -> str:
@@ -245,10 +247,12 @@ class Verification:
     missing: tuple[str, ...]
     added: tuple[str, ...]
     checked: int
+    signed_by: str | None = None  # one line on the manifest's signature, when there is one
+    bad_signatures: tuple[tuple[str, str], ...] = ()  # (file, why its signature does not hold)
 
     @property
     def intact(self) -> bool:
-        return not (self.altered or self.missing or self.added)
+        return not (self.altered or self.missing or self.added or self.bad_signatures)
 
 
 def _files(out: Path) -> Iterator[str]:
@@ -267,9 +271,39 @@ def verify(out: Path) -> Verification:
         raise OutputError(f"{out} has no {MANIFEST}: it is not a reportgen output folder") from exc
     except (ValueError, KeyError, TypeError) as exc:
         raise OutputError(f"{path} is not a readable reportgen manifest") from exc
-    present = set(_files(out)) - {MANIFEST}
+    present = set(_files(out)) - {MANIFEST, MANIFEST_SIGNATURE}
     altered = tuple(sorted(n for n in recorded if n in present
                            and sha256_file(out / n) != recorded[n]))
     missing = tuple(sorted(n for n in recorded if n not in present))
     added = tuple(sorted(present - set(recorded)))
-    return Verification(altered, missing, added, len(recorded))
+    pdfs = sorted(n for n in recorded if n in present and n.endswith(".pdf"))
+    signed_by, bad = _signatures(out, path.read_bytes(), pdfs)
+    return Verification(altered, missing, added, len(recorded), signed_by, bad)
+
+
+def _signatures(out: Path, manifest_bytes: bytes, pdfs: Sequence[str]
+                ) -> tuple[str | None, tuple[tuple[str, str], ...]]:
+    """The manifest's detached signature and every PDF's signature (docs/signing.md): each must
+    hold, and every PDF must be signed with the manifest's certificate. An edited file whose hash
+    was updated in the manifest fails here, since the manifest's signature no longer holds."""
+    sig_path = out / MANIFEST_SIGNATURE
+    if not sig_path.is_file():
+        signed = [n for n in pdfs if b"/ByteRange" in (out / n).read_bytes()]
+        if signed:
+            return None, ((MANIFEST_SIGNATURE, f"missing, though {len(signed)} PDF(s) are "
+                           "signed: the manifest's signature was removed"),)
+        return None, ()
+    from reportgen import signing  # pyHanko loads only for a signed folder
+
+    check = signing.verify_manifest(manifest_bytes, sig_path.read_bytes())
+    bad: list[tuple[str, str]] = []
+    if not check.valid:
+        bad.append((MANIFEST, check.reason))
+    for name in pdfs:
+        pdf = signing.verify_pdf((out / name).read_bytes())
+        if not pdf.valid:
+            bad.append((name, pdf.reason))
+        elif pdf.fingerprint != check.fingerprint:
+            bad.append((name, "signed with another certificate than the manifest "
+                        f"({pdf.fingerprint})"))
+    return check.describe(), tuple(bad)

@@ -65,3 +65,19 @@ def test_z_rule_not_assessable_when_group_has_no_spread() -> None:
 def test_no_criteria() -> None:
     v = judge([], {"accuracy": np.array([0.5, 0.7])})
     assert v.overall == ("no criteria announced", "no criteria announced")
+
+
+def test_z_rule_group_values_leave_out_participants_outside_the_group() -> None:
+    # A participant below [scoring] min_answered is still placed against x* and s*, but the
+    # group's robust values come from the others only (ISO 13528 Algorithm A on the group).
+    from reportgen.metrics.robust import algorithm_a
+
+    rng = np.random.default_rng(3)
+    group = rng.normal(0.8, 0.05, 40)
+    values = np.concatenate([group, [0.1]])
+    in_group = np.array([True] * 40 + [False])
+    rule = Criterion(id="Z", label="within range", metric="accuracy", kind="z", worse="low")
+    v = judge([rule], {"accuracy": values}, in_group)
+    est = algorithm_a(group)
+    assert v.robust["accuracy"] == pytest.approx((float(est.mean), float(est.sd)), rel=1e-12)
+    assert v.outcomes[-1][0].outcome == "unsatisfactory"

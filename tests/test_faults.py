@@ -125,7 +125,7 @@ class Rig:
         assert self.out.is_dir(), "OUT vanished"
         check = verify(self.out)
         assert check.intact, (check.altered, check.missing, check.added)
-        return self.results[sha256_file(self.out / "results.json")]
+        return self.results[sha256_file(self.out / "provider" / "results.json")]
 
     def rerun_succeeds(self) -> None:
         assert main(["score", str(self.v2), "-o", str(self.out), "--quiet"]) == 0
@@ -155,7 +155,7 @@ def rig(tmp_path_factory: pytest.TempPathFactory) -> Iterator[Rig]:
     for name, folder in (("v1", v1), ("v2", v2)):
         ref = root / "refs" / name
         assert main(["score", str(folder), "-o", str(ref), "--quiet"]) == 0
-        results[sha256_file(ref / "results.json")] = name
+        results[sha256_file(ref / "provider" / "results.json")] = name
     assert len(results) == 2, "the two rounds must give different results"
     (root / "work").mkdir()
     env = {**os.environ, "OPENBLAS_NUM_THREADS": "1", "OMP_NUM_THREADS": "1"}

@@ -93,3 +93,32 @@ def test_a_wrong_accent_does_not_hide_a_wrong_logo(make_round: Callable[..., Pat
             "(value 'blue')") in err
     assert ("error: round.toml, column 'provider.logo': the provider logo must be a .png, .jpg, "
             ".svg or .gif file inside the round folder (value 'logo.bmp')") in err
+
+
+def test_a_wrong_sheet_name_does_not_hide_mistakes_in_the_answers(
+        make_round: Callable[..., Path], capsys: pytest.CaptureFixture[str]) -> None:
+    import csv
+    import io
+
+    import openpyxl
+
+    from tests.conftest import ITEMS, responses_csv
+
+    answers = responses_csv().replace("A7,I2,different,2", "A7,I2,maybe,2").replace(
+        "B3,I3,different,1", "B3,I3,different,9")
+    folder = make_round(round__toml=ROUND_TOML + '\n[files.items]\nname = "items.xlsx"\n'
+                        'sheet = "Answers"\n', items__csv=None, responses__csv=answers)
+    book = openpyxl.Workbook()
+    book.active.title = "Key"
+    for row in csv.reader(io.StringIO(ITEMS)):
+        book.active.append(row)
+    book.save(folder / "items.xlsx")
+    assert cli.main(["check", str(folder)]) == 2
+    err = capsys.readouterr().err
+    assert "3 problem(s) must be fixed" in err
+    assert ("error: items.xlsx: sheet 'Answers' (named under [files] in round.toml) is not in "
+            "the workbook (value 'Answers'); allowed: 'Key'") in err
+    assert ("error: responses.csv, row 9, column 'decision': undeclared decision label (value "
+            "'maybe'); allowed: different, inconclusive, same") in err
+    assert ("error: responses.csv, row 16, column 'confidence': confidence is outside the scale "
+            "(value '9'); allowed: whole numbers 1 to 5") in err

@@ -43,15 +43,16 @@ def test_issue_records_once_refuses_changes_and_shows_previous_rounds(
     assert [v.version for v in history.round_versions(archive, "T-1")] == [1]
 
     # Changed inputs are refused before anything is written ...
-    before = (out / "results.json").read_bytes()
+    before = (out / "provider" / "results.json").read_bytes()
     changed = make_round(folder="changed", responses__csv=responses_csv().replace(
         "A7,I1,same,4", "A7,I1,different,4"))
     capsys.readouterr()
     assert main(["issue", str(changed), "-o", str(out), "--quiet"]) == 2
     assert "--replace" in capsys.readouterr().err
-    assert (out / "results.json").read_bytes() == before
+    assert (out / "provider" / "results.json").read_bytes() == before
     # ... and with --replace they become a new version; the old one is kept.
-    assert main(["issue", str(changed), "-o", str(out), "--quiet", "--replace"]) == 0
+    assert main(["issue", str(changed), "-o", str(out), "--quiet", "--replace",
+                 "--reason", "One answer was misread.", "--amended-on", "2026-02-05"]) == 0
     assert [v.version for v in history.round_versions(archive, "T-1")] == [1, 2]
     assert [v.version for v in history.round_versions(archive, "T-0")] == [1]
 

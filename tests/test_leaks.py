@@ -118,6 +118,19 @@ def test_appendix_names_nobody(issued: Issued) -> None:
             assert _leaks(text, codes, phrases) == [], kind
 
 
+def test_the_scan_covers_every_file_participants_receive(issued: Issued) -> None:
+    """Everything in OUT outside provider/ (and the manifest and archive, which stay with the
+    provider) is a certificate or the appendix, and so is scanned above."""
+    kept = {"manifest.json", "archive.sqlite"}
+    received = sorted(p.relative_to(issued.out).as_posix() for p in issued.out.rglob("*")
+                      if p.is_file() and p.relative_to(issued.out).parts[0] != "provider"
+                      and p.name not in kept)
+    files = json.loads((issued.out / "manifest.json").read_text("utf-8"))["participant_files"]
+    certificates = sorted(f"{Path(pdf).with_suffix('')}{ext}" for pdf in files.values()
+                          for ext in (".html", ".pdf"))
+    assert received == sorted([*certificates, "appendix.html", "appendix.pdf"])
+
+
 def test_code_matching_is_by_whole_token() -> None:
     pattern = _code_pattern({"0042", "A7"})
     assert pattern.findall("participant 0042, A7.") == ["0042", "A7"]

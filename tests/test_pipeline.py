@@ -28,14 +28,14 @@ def scored_twice(tmp_path_factory: pytest.TempPathFactory) -> tuple[Path, Path]:
 
 def test_score_writes_results_and_is_byte_identical(scored_twice: tuple[Path, Path]) -> None:
     a, b = scored_twice
-    names = sorted(p.name for p in a.iterdir())
-    assert names == ["manifest.json", "results.json", "results.xlsx"]
+    names = sorted(p.relative_to(a).as_posix() for p in a.rglob("*") if p.is_file())
+    assert names == ["manifest.json", "provider/results.json", "provider/results.xlsx"]
     for name in names:
         assert (a / name).read_bytes() == (b / name).read_bytes(), name
 
 
 def test_results_json_shape(scored_twice: tuple[Path, Path]) -> None:
-    doc = json.loads((scored_twice[0] / "results.json").read_text())
+    doc = json.loads((scored_twice[0] / "provider" / "results.json").read_text())
     assert doc["round"]["id"] == "FIC-2026"
     assert len(doc["participants"]) == doc["round"]["n_participants"] == 122
     first = doc["participants"][0]
@@ -50,8 +50,9 @@ def test_results_json_shape(scored_twice: tuple[Path, Path]) -> None:
 
 
 def test_workbook_sheets_and_methods(scored_twice: tuple[Path, Path]) -> None:
-    wb = load_workbook(scored_twice[0] / "results.xlsx", read_only=True)
-    assert wb.sheetnames == ["Participants", "Items", "Group summary", "Methods", "Round"]
+    wb = load_workbook(scored_twice[0] / "provider" / "results.xlsx", read_only=True)
+    assert wb.sheetnames == ["Participants", "Items", "Group summary", "Criteria", "Methods",
+                             "Round"]
     methods = {row[0]: row[3] for row in wb["Methods"].iter_rows(min_row=2, values_only=True)}
     assert "Hautus" in methods["d_prime"]
     assert "Maniscalco" in methods["meta_d"]
@@ -66,11 +67,11 @@ def test_verify_confirms_then_catches_one_changed_byte(scored_twice: tuple[Path,
     shutil.copytree(scored_twice[0], out)
     assert main(["verify", str(out)]) == 0
     assert "intact: all 2 files match" in capsys.readouterr().out
-    data = bytearray((out / "results.json").read_bytes())
+    data = bytearray((out / "provider" / "results.json").read_bytes())
     data[100] ^= 0x01
-    (out / "results.json").write_bytes(bytes(data))
+    (out / "provider" / "results.json").write_bytes(bytes(data))
     assert main(["verify", str(out)]) == 1
-    assert capsys.readouterr().out == "altered: results.json\n"
+    assert capsys.readouterr().out == "altered: provider/results.json\n"
 
 
 def test_formula_text_stays_text_in_workbook(make_round: MakeRound, tmp_path: Path) -> None:
@@ -80,7 +81,7 @@ def test_formula_text_stays_text_in_workbook(make_round: MakeRound, tmp_path: Pa
     folder = make_round(participants__csv=people)
     out = tmp_path / "out"
     assert main(["score", str(folder), "-o", str(out), "--quiet"]) == 0
-    ws = load_workbook(out / "results.xlsx")["Participants"]
+    ws = load_workbook(out / "provider" / "results.xlsx")["Participants"]
     cells = {c.value: c.data_type for row in ws.iter_rows() for c in row
              if isinstance(c.value, str)}
     assert cells['=HYPERLINK("http://x","y")'] == "s"

@@ -11,10 +11,12 @@ from reportgen.archive.queries import (
     RoundVersion,
     codes,
     current_code,
+    current_documents,
     participant_history,
     previous_rounds,
     previous_rounds_for,
     renames,
+    report_ids,
     round_versions,
     similar_codes,
 )
@@ -31,7 +33,9 @@ from reportgen.archive.store import (
 
 __all__ = [
     "APPLICATION", "MIGRATIONS", "SCHEMA_VERSION", "ArchivedRound", "RecordOutcome", "Rename",
-    "RoundVersion", "check_record", "codes", "current_code", "inputs_digest", "key_digest",
-    "migrate", "participant_history", "previous_rounds", "previous_rounds_for", "record_round",
-    "rename_code", "renames", "robust_accuracy", "round_versions", "similar_codes",
+    "RoundVersion", "check_record", "codes", "current_code", "current_documents",
+    "inputs_digest", "key_digest", "migrate", "participant_history", "previous_rounds",
+    "previous_rounds_for", "record_round", "rename_code", "renames", "report_ids",
+    "robust_accuracy",
+    "round_versions", "similar_codes",
 ]

@@ -14,7 +14,7 @@ from typing import Any
 
 from reportgen.archive.schema import reader
 from reportgen.errors import InputError
-from reportgen.results.model import Metric, PreviousRound
+from reportgen.results.model import IssuedDocument, Metric, PreviousRound
 
 # ---------------------------------------------------------------------------------------------
 # What queries return
@@ -259,3 +259,40 @@ def round_versions(path: Path, round_id: str | None = None) -> list[RoundVersion
         rows = conn.execute(sql + " ORDER BY issued, round_id, version", params).fetchall()
     return [RoundVersion(r, int(v), dt.date.fromisoformat(i), ih, ch, kh, bool(cur))
             for r, v, i, ih, ch, kh, cur in rows]
+
+
+def _has_documents(conn: sqlite3.Connection) -> bool:
+    """Archives older than schema version 3 (opened read-only) have no documents table."""
+    return conn.execute("SELECT 1 FROM sqlite_master WHERE type = 'table' AND name = "
+                        "'documents'").fetchone() is not None
+
+
+def current_documents(path: Path, round_id: str) -> dict[str, IssuedDocument]:
+    """The documents of the current (newest) version of ``round_id``, by participant code (``""``
+    for the appendix); empty when the round is not archived or was archived before documents
+    were recorded (schema version 3)."""
+    if not path.is_file():
+        return {}
+    with reader(path) as conn:
+        if not _has_documents(conn):
+            return {}
+        rows = conn.execute(
+            "SELECT code, report_id, content_sha256, issued, replaces, replaced_issued, reason "
+            "FROM documents WHERE round_id = ? AND version = (SELECT MAX(version) FROM "
+            "round_versions WHERE round_id = ?) ORDER BY code", (round_id, round_id)).fetchall()
+    return {row[0]: IssuedDocument(
+        code=row[0], report_id=row[1], content_sha256=row[2],
+        issued=dt.date.fromisoformat(row[3]), replaces=row[4],
+        replaced_issued=dt.date.fromisoformat(row[5]) if row[5] else None, reason=row[6])
+        for row in rows}
+
+
+def report_ids(path: Path) -> dict[str, str]:
+    """Every report id ever issued, with the fingerprint of its content."""
+    if not path.is_file():
+        return {}
+    with reader(path) as conn:
+        if not _has_documents(conn):
+            return {}
+        return dict(conn.execute("SELECT report_id, content_sha256 FROM documents "
+                                 "ORDER BY report_id").fetchall())

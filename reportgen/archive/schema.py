@@ -13,6 +13,9 @@ from typing import Literal
 from reportgen.errors import InputError, OutputError
 
 APPLICATION = "reportgen-archive"
+APPLICATION_ID = 0x52475054
+"""SQLite's application_id of a reportgen archive ("RGPT"), so ``file`` and other tools can tell
+the file from other SQLite databases; ``user_version`` holds the schema version."""
 BUSY_TIMEOUT_S = 60.0
 """How long a writer waits for another process's transaction before giving up."""
 
@@ -67,6 +70,19 @@ MIGRATIONS: tuple[Migration, ...] = (
               BEGIN SELECT RAISE(ABORT, 'the archive is append-only'); END"""
           for table in _APPEND_ONLY for verb in ("update", "delete")),
     )),
+    Migration(3, "every issued document: its report id, content fingerprint and amendment", (
+        """CREATE TABLE documents (
+            round_id TEXT NOT NULL, version INTEGER NOT NULL,
+            code TEXT NOT NULL,  -- the participant's code; '' for the group appendix
+            report_id TEXT NOT NULL, content_sha256 TEXT NOT NULL, issued TEXT NOT NULL,
+            replaces TEXT, replaced_issued TEXT, reason TEXT,
+            PRIMARY KEY (round_id, version, code),
+            FOREIGN KEY (round_id, version) REFERENCES round_versions (round_id, version))""",
+        "CREATE INDEX documents_report_id ON documents (report_id)",
+        *(f"""CREATE TRIGGER documents_no_{verb} BEFORE {verb.upper()} ON documents
+              BEGIN SELECT RAISE(ABORT, 'the archive is append-only'); END"""
+          for verb in ("update", "delete")),
+    )),
 )
 
 SCHEMA_VERSION = MIGRATIONS[-1].version
@@ -117,7 +133,8 @@ def _schema_version(conn: sqlite3.Connection, path: Path) -> int:
                                     "tables and no schema version)")
         return 0
     meta = dict(conn.execute("SELECT key, value FROM meta").fetchall())
-    if meta.get("application") != APPLICATION:
+    app_id = conn.execute("PRAGMA application_id").fetchone()[0]
+    if meta.get("application") != APPLICATION or app_id not in (0, APPLICATION_ID):
         raise InputError.single(str(path), "not a reportgen archive", value=meta.get("application"))
     return int(meta["schema_version"])
 
@@ -137,7 +154,17 @@ def _upgrade(conn: sqlite3.Connection, path: Path, target: int) -> int:
             conn.execute("INSERT OR REPLACE INTO meta VALUES ('schema_version', ?)",
                          (str(step.version),))
             current = step.version
+    _stamp_header(conn, current)
     return current
+
+
+def _stamp_header(conn: sqlite3.Connection, version: int) -> None:
+    """Write the application id and the schema version into the SQLite header (an archive made
+    before they were set gets them on its next write)."""
+    if conn.execute("PRAGMA application_id").fetchone()[0] != APPLICATION_ID:
+        conn.execute(f"PRAGMA application_id = {APPLICATION_ID:d}")
+    if conn.execute("PRAGMA user_version").fetchone()[0] != version:
+        conn.execute(f"PRAGMA user_version = {int(version):d}")
 
 
 def migrate(path: Path, *, target: int = SCHEMA_VERSION) -> int:

@@ -37,10 +37,15 @@ from reportgen.archive.queries import (
     unknown_code,
 )
 from reportgen.archive.schema import reader, writer
-from reportgen.errors import InputError
+from reportgen.errors import InputError, OutputError
 from reportgen.metrics.robust import MIN_GROUP, algorithm_a
 from reportgen.results import reasons
-from reportgen.results.model import ParticipantResult, RoundResults
+from reportgen.results.model import (
+    Amendment,
+    IssuedDocument,
+    ParticipantResult,
+    RoundResults,
+)
 from reportgen.results.records import participant_json, round_json
 
 RecordOutcome = Literal["added", "unchanged", "replaced"]
@@ -162,13 +167,16 @@ def check_record(path: Path, results: RoundResults, *, inputs_sha256: str, confi
 
 
 def record_round(path: Path, results: RoundResults, *, inputs_sha256: str, config_sha256: str,
-                 replace: bool = False) -> RecordOutcome:
+                 replace: bool = False, documents: Sequence[IssuedDocument] = (),
+                 amendment: Amendment | None = None) -> RecordOutcome:
     """Store a scored round and every participant's full record in the archive at ``path``.
 
     Same round id with the same ``inputs_sha256`` and ``config_sha256`` as its current version:
     ``"unchanged"``, nothing is written. Different hashes: :class:`InputError` unless ``replace``,
     which adds a new version (``"replaced"``) and keeps the earlier ones. A new round: ``"added"``.
     The archive is created (and its schema upgraded) as needed, all in one transaction.
+    ``documents`` are the certificates and appendix issued for this version (none for `record`);
+    an unchanged round that has none recorded yet gets them.
     """
     path = Path(path)
     round_row = _round_row(results, inputs_sha256, config_sha256)  # compute before the lock
@@ -178,15 +186,47 @@ def record_round(path: Path, results: RoundResults, *, inputs_sha256: str, confi
         outcome, version = _decide(conn, path, round_id, [r["code"] for r in rows],
                                    inputs_sha256, config_sha256, replace)
         if outcome == "unchanged":
+            _insert_documents(conn, path, round_id, version, documents, only_if_none=True)
             return outcome
         _insert(conn, "round_versions", {**round_row, "version": version})
         for row in rows:
             _insert(conn, "participant_results", {**row, "round_id": round_id,
                                                   "version": version})
-        _log(conn, "record" if outcome == "added" else "replace",
-             {"inputs_sha256": inputs_sha256, "config_sha256": config_sha256,
-              "participants": len(rows), "software": round_row["software"]}, round_id, version)
+        _insert_documents(conn, path, round_id, version, documents)
+        detail: dict[str, Any] = {"inputs_sha256": inputs_sha256,
+                                  "config_sha256": config_sha256, "participants": len(rows),
+                                  "software": round_row["software"]}
+        if amendment is not None:
+            detail.update(reason=amendment.reason, amended_on=amendment.amended_on.isoformat())
+        _log(conn, "record" if outcome == "added" else "replace", detail, round_id, version)
     return outcome
+
+
+def _insert_documents(conn: sqlite3.Connection, path: Path, round_id: str, version: int,
+                      documents: Sequence[IssuedDocument], only_if_none: bool = False) -> None:
+    """Record the issued documents of a version. A report id stands for one content forever:
+    the same id with another fingerprint is refused (it would mean two different reports under
+    one id)."""
+    if not documents:
+        return
+    if only_if_none and conn.execute(
+            "SELECT 1 FROM documents WHERE round_id = ? AND version = ? LIMIT 1",
+            (round_id, version)).fetchone() is not None:
+        return
+    for doc in documents:
+        clash = conn.execute("SELECT content_sha256 FROM documents WHERE report_id = ? AND "
+                             "content_sha256 != ? LIMIT 1",
+                             (doc.report_id, doc.content_sha256)).fetchone()
+        if clash is not None:
+            raise OutputError(f"archive {path}: report id {doc.report_id} was already issued "
+                              "with other content; an amended report needs a new id")
+        _insert(conn, "documents", {
+            "round_id": round_id, "version": version, "code": doc.code,
+            "report_id": doc.report_id, "content_sha256": doc.content_sha256,
+            "issued": doc.issued.isoformat(), "replaces": doc.replaces,
+            "replaced_issued": (doc.replaced_issued.isoformat()
+                                if doc.replaced_issued is not None else None),
+            "reason": doc.reason})
 
 
 def _check_aliases(conn: sqlite3.Connection, path: Path, round_id: str,

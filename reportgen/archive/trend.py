@@ -91,6 +91,7 @@ class RoundPoint:
     few_errors: bool
     metrics: Mapping[str, Metric]
     standing: Standing
+    levels: tuple[float, ...] = ()  # the round's confidence levels (its scale)
 
 
 @dataclass(frozen=True)
@@ -277,6 +278,7 @@ def round_point(a: ArchivedRound) -> RoundPoint:
         metrics=metrics,
         standing=standing(metrics["accuracy"].value, a.accuracy_x_star, a.accuracy_s_star,
                           a.n_participants, a.robust_note),
+        levels=a.levels,
     )
 
 

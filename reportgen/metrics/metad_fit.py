@@ -3,7 +3,9 @@ log-gap criteria, vectorised over many rating tables at once (see :mod:`.metad` 
 
 from __future__ import annotations
 
+import time
 from dataclasses import dataclass
+from typing import NamedTuple
 
 import numpy as np
 import numpy.typing as npt
@@ -19,6 +21,26 @@ _BOOTMAX_ITER = 40
 _BOOT_ACCEPT = 1e-3  # a replicate still short of _BOOT_TOL after 40 steps is kept below this
 _GAP_BOUNDS = (-20.0, 6.0)  # log-gap clip: e^-20 is a zero-width bin, e^6 an infinite criterion
 _META_D_BOUND = 15.0
+_HALVINGS = 30  # step-halvings per line search
+_POLISH_MAX_ITER = 2000  # L-BFGS-B iterations of the fallback for one table
+
+TIME_LIMIT = 120.0
+"""Seconds one :func:`fit_batch` call may run (a safety net, issue 10: no input may make a
+command run unbounded). Every loop is already capped by a count (``MAX_ITER`` Fisher steps of
+``_HALVINGS`` halvings each, ``_POLISH_MAX_ITER`` fallback iterations), and tables are capped at
+``metad.MAX_LEVELS`` levels, so the work is bounded by the input's size; this limit only stops a
+pathological batch on a slow machine. Tables still open when it passes are reported as not
+finished (``timed_out``), never silently kept. Reaching it is the only way the machine's speed
+could change a result, so ordinary rounds finish orders of magnitude below it."""
+
+
+class Fit(NamedTuple):
+    """What :func:`fit_batch` returns for B tables."""
+
+    theta: FloatArray  # (B, P): meta-d′ then the log-gaps
+    loglik: FloatArray  # (B,)
+    converged: BoolArray  # (B,)
+    timed_out: BoolArray  # (B,) stopped by ``TIME_LIMIT`` (then ``converged`` is False)
 
 
 # ---------------------------------------------------------------------------- batched fitting
@@ -54,11 +76,13 @@ def _means(theta: FloatArray, ratio: FloatArray) -> tuple[FloatArray, FloatArray
 
 
 def _log_cells(z: FloatArray) -> FloatArray:
-    """log(Φ(z[j+1]) − Φ(z[j])), in log space on the side of 0 that keeps precision in the tails."""
-    lo, hi = z[:, :-1], z[:, 1:]
-    upper = lo > 0
-    big: FloatArray = np.where(upper, special.log_ndtr(-lo), special.log_ndtr(hi))
-    small: FloatArray = np.where(upper, special.log_ndtr(-hi), special.log_ndtr(lo))
+    """log(Φ(z[j+1]) − Φ(z[j])), in log space on the side of 0 that keeps precision in the tails.
+
+    log Φ(z) and log Φ(−z) are evaluated once per edge and shared by the two cells beside it."""
+    log_below, log_above = special.log_ndtr(z), special.log_ndtr(-z)
+    upper = z[:, :-1] > 0
+    big: FloatArray = np.where(upper, log_above[:, :-1], log_below[:, 1:])
+    small: FloatArray = np.where(upper, log_above[:, 1:], log_below[:, :-1])
     out: FloatArray = big + np.log1p(-np.exp(small - big))
     return out
 
@@ -110,15 +134,16 @@ def _score_and_info(batch: Batch, theta: FloatArray) -> tuple[FloatArray, FloatA
         score = np.empty((n_b, 2 * k, n_p))
         score[:, :, 0] = (dlogp_dmu - dlog_side) * dmu[:, None]
         score[:, :, 1:] = jac[:, :, free]
-        grad_u += np.einsum("bj,bjp->bp", counts, score)
+        grad_u += (counts[:, None, :] @ score)[:, 0, :]
         side_total = np.where(
             left_side, counts[:, :k].sum(1, keepdims=True), counts[:, k:].sum(1, keepdims=True)
         )
         weight = side_total * np.exp(log_cells - log_side)  # expected count of each cell
-        info_u += np.einsum("bj,bjp,bjq->bpq", weight, score, score)
+        info_u += (score * weight[:, :, None]).transpose(0, 2, 1) @ score
     jac_theta = _edge_jacobian(theta, k)
-    grad = np.einsum("bpq,bp->bq", jac_theta, grad_u)
-    info = np.einsum("bpq,bpr,brs->bqs", jac_theta, info_u, jac_theta)
+    jac_t = jac_theta.transpose(0, 2, 1)
+    grad = (jac_t @ grad_u[..., None])[..., 0]
+    info = jac_t @ info_u @ jac_theta
     return grad, info
 
 
@@ -162,32 +187,69 @@ def _clip(theta: FloatArray) -> FloatArray:
     return out
 
 
-def fit_batch(batch: Batch, bootstrap: bool = False) -> tuple[FloatArray, FloatArray, BoolArray]:
-    """Fisher scoring with step-halving on all tables at once: (theta, logL, converged).
+def fit_batch(
+    batch: Batch,
+    bootstrap: bool = False,
+    start: FloatArray | None = None,
+    time_limit: float = TIME_LIMIT,
+) -> Fit:
+    """Fisher scoring with step-halving on all tables at once.
 
-    Single fits that stall go to an L-BFGS-B fallback. Bootstrap replicates use a looser
-    tolerance and are accepted when nearly converged (no per-replicate fallback: it would cost
-    more than the whole batch, for a change in meta-d′ of the order of 1e-3).
+    ``start`` (B, P) replaces the authors' starting guess (bootstrap replicates start from their
+    table's own fit). Single fits that stall go to an L-BFGS-B fallback. Bootstrap replicates
+    use a looser tolerance and are accepted when nearly converged (no per-replicate fallback: it
+    would cost more than the whole batch, for a change in meta-d′ of the order of 1e-3). Every
+    loop has an iteration cap, and the whole call stops after ``time_limit`` seconds.
     """
+    deadline = time.monotonic() + time_limit
     tol, max_iter = (_BOOT_TOL, _BOOTMAX_ITER) if bootstrap else (_TOL, MAX_ITER)
     with np.errstate(all="ignore"):
-        theta, loglik, converged, decrement = _fisher_scoring(batch, tol, max_iter)
+        theta = _start(batch) if start is None else _clip(np.asarray(start, dtype=np.float64))
+        theta, loglik, converged, decrement, timed_out = _fisher_scoring(
+            batch, theta, tol, max_iter, deadline)
         if bootstrap:
-            return theta, loglik, converged | (np.isfinite(loglik) & (decrement < _BOOT_ACCEPT))
-        for i in np.flatnonzero(~converged):
-            theta[i], loglik[i], converged[i] = _polish(subset(batch, np.array([i])), theta[i])
-    return theta, loglik, converged
+            accept = np.isfinite(loglik) & (decrement < _BOOT_ACCEPT) & ~timed_out
+            return Fit(theta, loglik, converged | accept, timed_out)
+        for i in np.flatnonzero(~converged & ~timed_out):
+            if time.monotonic() > deadline:
+                timed_out[i] = True
+                continue
+            theta[i], loglik[i], converged[i] = _polish(
+                subset(batch, np.array([i])), theta[i], deadline)
+            timed_out[i] = not converged[i] and time.monotonic() > deadline
+    return Fit(theta, loglik, converged, timed_out)
+
+
+def fit_criteria(batch: Batch, theta: FloatArray, deadline: float) -> Fit:
+    """Fit only the type-2 criteria with meta-d′ held at ``theta[:, 0]`` (a profile likelihood).
+
+    Starts from ``theta``'s criteria; no fallback (a profile point that does not converge is
+    reported as such)."""
+    with np.errstate(all="ignore"):
+        theta, loglik, converged, _, timed_out = _fisher_scoring(
+            batch, _clip(theta), _TOL, MAX_ITER, deadline, fixed_meta=True)
+    return Fit(theta, loglik, converged, timed_out)
+
+
+def score_and_info(batch: Batch, theta: FloatArray) -> tuple[FloatArray, FloatArray]:
+    """Gradient (B, P) and Fisher information (B, P, P) of the log-likelihood at ``theta``."""
+    with np.errstate(all="ignore"):
+        return _score_and_info(batch, theta)
 
 
 def _fisher_scoring(
-    batch: Batch, tol: float, max_iter: int
-) -> tuple[FloatArray, FloatArray, BoolArray, FloatArray]:
-    """(theta, logL, converged, last Newton decrement) for every table of the batch."""
-    theta = _start(batch)
+    batch: Batch, theta: FloatArray, tol: float, max_iter: int, deadline: float,
+    fixed_meta: bool = False,
+) -> tuple[FloatArray, FloatArray, BoolArray, FloatArray, BoolArray]:
+    """(theta, logL, converged, last Newton decrement, timed out) for every table of the batch.
+
+    With ``fixed_meta`` meta-d′ (``theta[:, 0]``) stays where it is and only the criteria move."""
+    theta = theta.copy()
     n_b, n_p = theta.shape
     loglik = _log_lik(batch, theta)
     last_decrement = np.full(n_b, np.inf)
     done = np.zeros(n_b, dtype=bool)
+    timed_out = np.zeros(n_b, dtype=bool)
     failed = ~np.isfinite(loglik)
     done |= failed
     ridge = 1e-9 * np.eye(n_p)
@@ -195,8 +257,15 @@ def _fisher_scoring(
         active = np.flatnonzero(~done)
         if active.size == 0:
             break
+        if time.monotonic() > deadline:
+            timed_out[active] = True
+            break
         sub = subset(batch, active)
         grad, info = _score_and_info(sub, theta[active])
+        if fixed_meta:
+            grad[:, 0] = 0.0
+            info[:, 0, :] = info[:, :, 0] = 0.0
+            info[:, 0, 0] = 1.0
         bad = ~(np.isfinite(grad).all(1) & np.isfinite(info).all((1, 2)))
         grad[bad] = 0.0
         info[bad] = np.eye(n_p)
@@ -208,11 +277,11 @@ def _fisher_scoring(
         done[active[bad | (decrement < tol)]] = True
         moved = _line_search(sub, theta[active], loglik[active], step)
         theta[active], loglik[active] = moved
-    converged = done & ~failed & (np.abs(theta[:, 0]) < _META_D_BOUND)
-    return theta, loglik, converged, last_decrement
+    converged = done & ~failed & ~timed_out & (np.abs(theta[:, 0]) < _META_D_BOUND)
+    return theta, loglik, converged, last_decrement, timed_out
 
 
-def _polish(batch: Batch, theta: FloatArray) -> tuple[FloatArray, float, bool]:
+def _polish(batch: Batch, theta: FloatArray, deadline: float) -> tuple[FloatArray, float, bool]:
     """Fallback for the rare table where scoring stalls (flat or boundary optimum): L-BFGS-B.
 
     The bounds are the clip limits of the log-gaps, where a criterion is effectively at infinity or
@@ -227,6 +296,10 @@ def _polish(batch: Batch, theta: FloatArray) -> tuple[FloatArray, float, bool]:
         grad, _ = _score_and_info(batch, x[None, :])
         return -float(value), -grad[0]
 
+    def stop_at_deadline(intermediate_result: optimize.OptimizeResult) -> None:
+        if time.monotonic() > deadline:
+            raise StopIteration
+
     bounds = [(-_META_D_BOUND, _META_D_BOUND)] + [_GAP_BOUNDS] * (theta.size - 1)
     res = optimize.minimize(
         objective,
@@ -234,10 +307,12 @@ def _polish(batch: Batch, theta: FloatArray) -> tuple[FloatArray, float, bool]:
         jac=True,
         method="L-BFGS-B",
         bounds=bounds,
-        options={"maxiter": 2000, "ftol": 1e-15, "gtol": 1e-8},
+        callback=stop_at_deadline,
+        options={"maxiter": _POLISH_MAX_ITER, "ftol": 1e-15, "gtol": 1e-8},
     )
     x = np.asarray(res.x, dtype=np.float64)
-    ok = bool(res.success) and abs(x[0]) < _META_D_BOUND and float(res.fun) < 1e299
+    finished = time.monotonic() <= deadline
+    ok = bool(res.success) and finished and abs(x[0]) < _META_D_BOUND and float(res.fun) < 1e299
     return x, -float(res.fun), ok
 
 
@@ -253,7 +328,7 @@ def _line_search(
     loglik = loglik.copy()
     pending = np.arange(theta.shape[0])
     alpha = 1.0
-    for _ in range(30):
+    for _ in range(_HALVINGS):
         trial = _clip(theta[pending] + alpha * step[pending])
         value = _log_lik(subset(batch, pending), trial)
         ok = np.isfinite(value) & (value >= loglik[pending] - 1e-12)

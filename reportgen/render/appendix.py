@@ -10,7 +10,7 @@ from typing import Any
 
 from reportgen import catalogue
 from reportgen.metrics.selfestimate import AbilityGroup, MeanInterval, QuartileRow
-from reportgen.render import charts, wording
+from reportgen.render import chart_tables, charts, wording
 from reportgen.render.context import (
     appendix_id,
     common_context,
@@ -20,6 +20,8 @@ from reportgen.render.context import (
     render_template,
     rule_text,
 )
+from reportgen.render.identity import Identity, Signed, identity_context
+from reportgen.render.wording import scale as scale_words
 from reportgen.render.wording import statements
 from reportgen.results.model import (
     Metric,
@@ -248,6 +250,7 @@ def appendix_context(results: RoundResults, settings: Settings) -> dict[str, Any
         "report_id": appendix_id(cfg.round.id),
         "distributions": _distribution_rows(results, ctx["small_group"]),
         "error_types": _error_type_rows(results),
+        "conclusions": scale_words.conclusion_table(results.group.conclusions, cfg),
         "criteria_counts": _criteria_count_rows(results),
         "overall_counts": sorted(results.group.overall_counts.items()),
         "calibration": _calibration_rows(results),
@@ -255,6 +258,11 @@ def appendix_context(results: RoundResults, settings: Settings) -> dict[str, Any
         "flagged": [it for it in _item_analysis_rows(results, settings) if it["flagged"]],
         "views": _group_views(results, ctx),
         "group_methods": True,
+        "chart_tables": {
+            "distributions": chart_tables.group_histograms([] if ctx["small_group"] else panels),
+            "insight": chart_tables.insight_summary(
+                results, [] if ctx["small_group"] else insight_points(results)),
+        },
         "charts": {
             "distributions": None if ctx["small_group"] else charts.image(
                 charts.group_distributions(panels)),
@@ -266,6 +274,10 @@ def appendix_context(results: RoundResults, settings: Settings) -> dict[str, Any
     return ctx
 
 
-def render_appendix(results: RoundResults, settings: Settings) -> str:
-    """The anonymous group appendix as one HTML document."""
-    return render_template(APPENDIX_TEMPLATE, appendix_context(results, settings), settings)
+def render_appendix(results: RoundResults, settings: Settings, *,
+                    identity: Identity | None = None, signed: Signed | None = None) -> str:
+    """The anonymous group appendix as one HTML document (``identity`` and ``signed`` as for
+    :func:`reportgen.render.certificate.render_certificate`)."""
+    ctx = appendix_context(results, settings)
+    ctx.update(identity_context(identity, signed))
+    return render_template(APPENDIX_TEMPLATE, ctx, settings)

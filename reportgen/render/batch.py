@@ -5,9 +5,10 @@ that must not be copied), receive the scored round once, and each keeps its own
 FontConfiguration and font CSS (:mod:`reportgen.render.pdf`). Documents come back as bytes; the
 caller writes them. Output names are made safe from participant codes by :func:`safe_stems`.
 
-This module imports the renderers lazily and hands the round to workers as pickled bytes: a
-spawned worker then reads its start-up data at once, instead of keeping the parent blocked on the
-pipe while it imports WeasyPrint, Altair and SciPy.
+This module imports the renderers lazily. Workers can be started before the round is scored
+(:class:`RenderWorkers`, used by ``pipeline.issue``): each imports WeasyPrint, Altair and SciPy
+(≈ 4 s) while this process scores. The scored round then reaches them as one pickle file in the
+system's temporary folder, read once per worker, not through the pipe with every task.
 
 Workers run under :class:`concurrent.futures.ProcessPoolExecutor`, not ``multiprocessing.Pool``:
 when a worker dies outright (killed, out of memory, a crash in a C library) the executor marks
@@ -18,24 +19,28 @@ forever.
 
 from __future__ import annotations
 
+import bisect
 import hashlib
 import itertools
 import multiprocessing
+import os
 import pickle
 import re
+import tempfile
 import unicodedata
 from collections import deque
 from collections.abc import Callable, Iterable, Iterator, Mapping, Sequence
 from concurrent.futures import FIRST_COMPLETED, Future, ProcessPoolExecutor, wait
 from concurrent.futures.process import BrokenProcessPool
-from dataclasses import dataclass
+from dataclasses import dataclass, field, replace
 from typing import TYPE_CHECKING
 
 from reportgen.errors import BuildError
 
 if TYPE_CHECKING:
-    from reportgen.results.model import PreviousRound, RoundResults
+    from reportgen.results.model import Amendment, IssuedDocument, PreviousRound, RoundResults
     from reportgen.settings import Settings
+    from reportgen.signing import Signer
 
 Progress = Callable[[int, int], None]
 APPENDIX = -1
@@ -117,38 +122,113 @@ class _Job:
     results: RoundResults
     settings: Settings
     previous: Mapping[str, Sequence[PreviousRound]]
+    record: DocumentRecord | None = None
 
 
-_JOB: _Job | None = None
+@dataclass(frozen=True)
+class DocumentRecord:
+    """What the documents of this run must know beyond the results: the documents of the
+    round's current archived version (by code, ``""`` for the appendix), every report id ever
+    issued, the amendment (``issue --replace``), the signer; ``issued`` collects the archive
+    record of each document rendered (in the parent process)."""
+
+    current: Mapping[str, IssuedDocument] = field(default_factory=dict)
+    taken: frozenset[str] = frozenset()
+    amendment: Amendment | None = None
+    signer: Signer | None = None
+    issued: list[IssuedDocument] = field(default_factory=list)
 
 
-def _init_worker(payload: bytes) -> None:
+_JOB: tuple[str, _Job] | None = None  # (the pickle file it came from, the job)
+
+
+def _warm_worker() -> None:
+    """Worker initialiser: import the renderers now, while the parent is still scoring."""
+    import reportgen.render.appendix
+    import reportgen.render.certificate
+    import reportgen.render.pdf  # noqa: F401
+
+
+def _job_from(path: str) -> _Job:
     global _JOB
-    _JOB = pickle.loads(payload)
+    if _JOB is None or _JOB[0] != path:
+        with open(path, "rb") as fh:
+            _JOB = (path, pickle.load(fh))
+    return _JOB[1]
 
 
-def _render_one(job: _Job, index: int) -> tuple[int, bytes, bytes]:
+def _render_one(job: _Job, index: int) -> Rendered:
     from reportgen.render.appendix import render_appendix
-    from reportgen.render.certificate import render_certificate
-    from reportgen.render.context import logo_path
-    from reportgen.render.pdf import html_to_pdf
+    from reportgen.render.certificate import certificate_attachments, render_certificate
+    from reportgen.render.context import appendix_id, logo_path, report_id
+    from reportgen.render.identity import Identity, Signed, identify
+    from reportgen.render.pdf import PdfAttachment, html_to_pdf
 
-    results, settings = job.results, job.settings
+    results, settings, record = job.results, job.settings, job.record or DocumentRecord()
+    cfg = results.round.config
+    signed = None if record.signer is None else Signed(demo=record.signer.is_demo)
+    code = "" if index == APPENDIX else results.participants[index].code
+    render: Callable[[Identity], str]
     if index == APPENDIX:
-        html = render_appendix(results, settings)
+        base = appendix_id(cfg.round.id)
+
+        def render(identity: Identity) -> str:
+            return render_appendix(results, settings, identity=identity, signed=signed)
     else:
         p = results.participants[index]
-        html = render_certificate(results, p, settings, job.previous.get(p.code))
+        base = report_id(cfg.round.id, p.code)
+
+        def render(identity: Identity) -> str:
+            return render_certificate(results, p, settings, job.previous.get(p.code),
+                                      identity=identity, signed=signed)
+    html, document = identify(render, code=code, base_id=base, issued=cfg.round.issued,
+                              current=record.current.get(code), amendment=record.amendment,
+                              taken=record.taken)
+    attachments: tuple[PdfAttachment, ...] = ()
+    if index != APPENDIX:
+        attachments = certificate_attachments(
+            results, results.participants[index],
+            Identity(document.report_id, document.issued, document.replaces))
     logo = logo_path(results)
-    pdf = html_to_pdf(html, issued=results.round.config.round.issued,
-                      allowed_files=[logo] if logo is not None else [])
-    return index, html.encode("utf-8"), pdf
+    pdf = html_to_pdf(html, issued=document.issued,
+                      allowed_files=[logo] if logo is not None else [],
+                      attachments=attachments)
+    if record.signer is not None:
+        from reportgen import signing
+
+        pdf = signing.sign_pdf(pdf, record.signer, when=signing.signing_time(document.issued))
+    return index, html.encode("utf-8"), pdf, document
 
 
-def _work(index: int) -> tuple[int, bytes, bytes]:
-    if _JOB is None:
-        raise RuntimeError("worker used before initialisation")
-    return _render_one(_JOB, index)
+def _work(path: str, index: int) -> Rendered:
+    return _render_one(_job_from(path), index)
+
+
+class RenderWorkers:
+    """``count`` spawned worker processes, started now so that they import the renderers while
+    the caller does other work (scoring); hand them to :func:`render_documents`. A context
+    manager: leaving it shuts the processes down."""
+
+    def __init__(self, count: int) -> None:
+        self.count = max(0, count)
+        self.pool: ProcessPoolExecutor | None = None
+        if self.count:
+            self.pool = ProcessPoolExecutor(self.count,
+                                            mp_context=multiprocessing.get_context("spawn"),
+                                            initializer=_warm_worker)
+            for _ in range(self.count):  # spawns every process now (the pool is lazy)
+                self.pool.submit(int)
+
+    def __enter__(self) -> RenderWorkers:
+        return self
+
+    def __exit__(self, *exc: object) -> None:
+        self.close()
+
+    def close(self) -> None:
+        if self.pool is not None:
+            self.pool.shutdown(wait=True, cancel_futures=True)
+            self.pool = None
 
 
 def _named(results: RoundResults, names: Mapping[str, str], index: int, html: bytes,
@@ -161,6 +241,8 @@ def _named(results: RoundResults, names: Mapping[str, str], index: int, html: by
 def render_documents(results: RoundResults, settings: Settings, *, jobs: int = 1,
                      progress: Progress | None = None,
                      previous_rounds: Mapping[str, Sequence[PreviousRound]] | None = None,
+                     workers: RenderWorkers | None = None,
+                     record: DocumentRecord | None = None,
                      ) -> Iterator[tuple[str, bytes]]:
     """Yield ``(relative name, bytes)`` for every certificate (HTML, PDF) and the appendix.
 
@@ -168,22 +250,38 @@ def render_documents(results: RoundResults, settings: Settings, *, jobs: int = 1
     ``appendix.html|.pdf``; each document's HTML comes right before its PDF. ``jobs`` processes
     render: this one and ``jobs - 1`` spawned workers, so this process works while the workers
     start up. With ``jobs > 1`` documents arrive in the order they finish (the bytes do not
-    depend on it). ``progress(done, total)`` is called at the start and after each document,
-    with ``total`` = participants + 1.
+    depend on it). ``workers``: processes started earlier (:class:`RenderWorkers`, of
+    ``jobs - 1`` processes), used instead of starting new ones; the caller closes them.
+    ``progress(done, total)`` is called at the start and after each document, with ``total`` =
+    participants + 1. ``record``: the documents issued before (for amendments), the signer,
+    and the list each document's archive record is appended to.
     """
     names = output_names(results)
-    job = _Job(results, settings, dict(previous_rounds or {}))
+    job = _Job(results, settings, dict(previous_rounds or {}),
+               None if record is None else replace(record, issued=[]))
     order = [*range(len(results.participants)), APPENDIX]
     report = progress or (lambda done, total: None)
     report(0, len(order))
-    rendered = (_serial(job, order) if jobs <= 1 or len(order) <= 1
-                else _parallel(job, order, min(jobs, len(order)) - 1))
-    for done, (index, html, pdf) in enumerate(rendered, start=1):
+    if jobs <= 1 or len(order) <= 1:
+        rendered = _serial(job, order)
+    elif workers is not None and workers.pool is not None:
+        rendered = _parallel(job, order, workers)
+    else:
+        rendered = _own_workers(job, order, min(jobs, len(order)) - 1)
+    # ``record.issued`` is kept in the order of ``order`` whatever order the documents finish
+    # in, so the archive is byte-identical whatever ``jobs`` is.
+    rank = {index: n for n, index in enumerate(order)}
+    ranks: list[int] = []
+    for done, (index, html, pdf, document) in enumerate(rendered, start=1):
+        if record is not None:
+            at = bisect.bisect(ranks, rank[index])
+            ranks.insert(at, rank[index])
+            record.issued.insert(at, document)
         yield from _named(results, names, index, html, pdf)
         report(done, len(order))
 
 
-Rendered = tuple[int, bytes, bytes]
+Rendered = tuple[int, bytes, bytes, "IssuedDocument"]
 
 
 def _serial(job: _Job, order: Sequence[int]) -> Iterator[Rendered]:
@@ -191,32 +289,43 @@ def _serial(job: _Job, order: Sequence[int]) -> Iterator[Rendered]:
         yield _render_one(job, index)
 
 
-def _parallel(job: _Job, order: Sequence[int], workers: int) -> Iterator[Rendered]:
-    """Feed ``workers`` spawned processes a few tasks ahead; render here between harvests.
+def _own_workers(job: _Job, order: Sequence[int], count: int) -> Iterator[Rendered]:
+    with RenderWorkers(count) as workers:
+        yield from _parallel(job, order, workers)
+
+
+def _parallel(job: _Job, order: Sequence[int], workers: RenderWorkers) -> Iterator[Rendered]:
+    """Feed the worker processes a few tasks ahead; render here between harvests.
 
     A worker that dies outright breaks the pool: the remaining tasks are cancelled and
     :class:`BuildError` is raised instead of waiting for a result that will never come.
     """
+    pool = workers.pool
+    if pool is None:
+        raise RuntimeError("render workers used after they were closed")
     todo = deque(order)
-    window = 3 * workers
-    payload = pickle.dumps(job, protocol=pickle.HIGHEST_PROTOCOL)
-    pool = ProcessPoolExecutor(workers, mp_context=multiprocessing.get_context("spawn"),
-                               initializer=_init_worker, initargs=(payload,))
+    window = 3 * workers.count
+    fd, path = tempfile.mkstemp(prefix="reportgen-job-", suffix=".pickle")
     inflight: dict[Future[Rendered], int] = {}  # future -> submission number
     submitted = itertools.count()
     try:
+        with os.fdopen(fd, "wb") as fh:
+            pickle.dump(job, fh, protocol=pickle.HIGHEST_PROTOCOL)
         while todo or inflight:
             for future in sorted((f for f in inflight if f.done()), key=inflight.__getitem__):
                 del inflight[future]
                 yield _result(future)
             while todo and len(inflight) < window:
-                inflight[pool.submit(_work, todo.popleft())] = next(submitted)
+                inflight[pool.submit(_work, path, todo.popleft())] = next(submitted)
             if todo:
                 yield _render_one(job, todo.pop())  # this process takes from the far end
             elif inflight:
                 wait(inflight, timeout=1.0, return_when=FIRST_COMPLETED)
     finally:
-        pool.shutdown(wait=True, cancel_futures=True)
+        for future in inflight:
+            future.cancel()
+        wait([f for f in inflight if not f.cancelled()])
+        os.unlink(path)
 
 
 def _result(future: Future[Rendered]) -> Rendered:

@@ -12,17 +12,23 @@ from typing import Any
 import numpy as np
 
 from reportgen import catalogue
-from reportgen.render import charts, wording
+from reportgen.render import chart_tables, charts, wording
 from reportgen.render.context import (
     common_context,
     criterion_value,
     insight_chart,
+    insight_points,
     metric_values,
     render_template,
     report_id,
     rule_text,
     value_of,
 )
+from reportgen.render.identity import Identity, Signed, identity_context
+from reportgen.render.pdf import PdfAttachment
+from reportgen.render.results_json import participant_results_json
+from reportgen.render.submission import submission_context
+from reportgen.render.wording import scale as scale_words
 from reportgen.render.wording import statements
 from reportgen.results.model import (
     ParticipantResult,
@@ -33,6 +39,7 @@ from reportgen.rounds.model import ABSTAINED, MISSING, SAID_NEGATIVE, SAID_POSIT
 from reportgen.settings import Settings
 
 CERTIFICATE_TEMPLATE = "certificate.html.j2"
+ATTACHMENT_NAME = "participant-results.json"
 
 
 def _metric_rows(p: ParticipantResult, results: RoundResults, readings: Mapping[str, str]
@@ -188,6 +195,19 @@ def _certificate_charts(results: RoundResults, p: ParticipantResult, accuracies:
     }
 
 
+def _chart_tables(results: RoundResults, p: ParticipantResult, accuracies: list[float],
+                  ctx: dict[str, Any]) -> dict[str, chart_tables.Table]:
+    """The numbers behind each certificate chart (see :mod:`.chart_tables`)."""
+    method = results.round.config.scoring.interval
+    points = [] if ctx["small_group"] else insight_points(results, p.code)
+    return {
+        "by_level": chart_tables.accuracy_by_level(p.levels, results.group.levels, method),
+        "right_wrong": chart_tables.right_wrong_by_level(p.levels, results.group.levels),
+        "position": chart_tables.accuracy_histogram(accuracies, p.metrics["accuracy"].value),
+        "insight": chart_tables.insight_summary(results, points, p),
+    }
+
+
 def certificate_context(results: RoundResults, participant: ParticipantResult,
                         settings: Settings,
                         previous_rounds: Sequence[PreviousRound] | None = None
@@ -218,19 +238,40 @@ def certificate_context(results: RoundResults, participant: ParticipantResult,
             "note": participant.metrics["type2_auroc"].note or "",
         },
         "answer_table": _answer_table(results, participant.row),
+        "conclusions": scale_words.conclusion_table(participant.conclusions, cfg),
         "item_pairs": _two_columns(_item_rows(results, participant.row, settings)),
         "charts": _certificate_charts(results, participant, accuracies, ctx),
+        "chart_tables": _chart_tables(results, participant, accuracies, ctx),
         "position_sentence": "" if ctx["small_group"] else _position_sentence(
             accuracies, participant.metrics["accuracy"].value),
         "previous_rounds": tuple(previous_rounds or ()),
         "group_methods": False,
     })
+    ctx.update(submission_context(results, participant))
     return ctx
+
+
+def certificate_attachments(results: RoundResults, participant: ParticipantResult,
+                            identity: Identity | None = None) -> tuple[PdfAttachment, ...]:
+    """What the certificate PDF embeds: the participant's own results as JSON ("Data")."""
+    cfg = results.round.config
+    own_id = (identity.report_id if identity is not None
+              else report_id(cfg.round.id, participant.code))
+    return (PdfAttachment(
+        name=ATTACHMENT_NAME,
+        data=participant_results_json(results, participant, own_id),
+        description=f"Your own results in round {cfg.round.id} as JSON "
+                    "(reportgen-participant-results/1)"),)
 
 
 def render_certificate(results: RoundResults, participant: ParticipantResult,
                        settings: Settings,
-                       previous_rounds: Sequence[PreviousRound] | None = None) -> str:
-    """The participant's confidential certificate and feedback report as one HTML document."""
-    return render_template(CERTIFICATE_TEMPLATE,
-                   certificate_context(results, participant, settings, previous_rounds), settings)
+                       previous_rounds: Sequence[PreviousRound] | None = None, *,
+                       identity: Identity | None = None, signed: Signed | None = None) -> str:
+    """The participant's confidential certificate and feedback report as one HTML document.
+
+    ``identity``: the report id and amendment notice it carries (default: the round's base id,
+    no notice); ``signed``: how its PDF will be signed, for the note on page 1."""
+    ctx = certificate_context(results, participant, settings, previous_rounds)
+    ctx.update(identity_context(identity, signed))
+    return render_template(CERTIFICATE_TEMPLATE, ctx, settings)

@@ -17,13 +17,15 @@ import jinja2
 
 from reportgen import __version__, catalogue
 from reportgen.errors import BuildError, InputError
-from reportgen.render import charts, wording
+from reportgen.render import charts, html_parts, wording
 from reportgen.render.environment import environment
+from reportgen.render.wording import scale as scale_words
 from reportgen.results.model import (
     Metric,
     RoundResults,
 )
 from reportgen.rounds.schema import Criterion, RoundConfig
+from reportgen.scoring.scale import calibration_applies
 from reportgen.settings import Settings
 
 LOGO_TYPES = {".png": "image/png", ".jpg": "image/jpeg", ".jpeg": "image/jpeg",
@@ -118,6 +120,9 @@ def common_context(results: RoundResults, settings: Settings) -> dict[str, Any]:
         "lang": "en",
         "round": info,
         "provider": cfg.provider,
+        "authorised_by": cfg.provider.authorised_by,
+        "amendment": None,  # set by the caller for an amended report
+        "signed": None,  # set by the caller when the PDF will be signed
         "accent": cfg.provider.accent,
         "logo_uri": logo_data_uri(results),
         "issued": wording.fmt_date(info.issued),
@@ -131,8 +136,9 @@ def common_context(results: RoundResults, settings: Settings) -> dict[str, Any]:
         "n_participants": results.group.n_participants,
         "positive": cfg.classes.positive,
         "negative": cfg.classes.negative,
-        "scale_text": _scale_text(cfg),
-        "calibrated": cfg.confidence.calibration_applies,
+        "scale_text": scale_words.scale_text(rnd) or _scale_text(cfg),
+        "scale_statement": scale_words.scale_statement(rnd),
+        "calibrated": calibration_applies(rnd),
         "interval_name": "Wilson score" if cfg.scoring.interval == "wilson"
         else "Clopper\u2013Pearson",
         "inconclusive_is_error": cfg.scoring.inconclusive_is_error,
@@ -143,6 +149,7 @@ def common_context(results: RoundResults, settings: Settings) -> dict[str, Any]:
         "version": __version__,
         "small_group": results.group.n_participants < settings.report.min_group_size,
         "min_group_size": settings.report.min_group_size,
+        **html_parts.html_context(),
     }
 
 

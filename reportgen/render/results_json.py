@@ -10,7 +10,7 @@ from __future__ import annotations
 import json
 from typing import Any
 
-from reportgen import __version__
+from reportgen import __version__, catalogue
 from reportgen.render.wording import statements
 from reportgen.results.model import ParticipantResult, RoundResults
 from reportgen.results.records import (
@@ -22,6 +22,8 @@ from reportgen.results.records import (
 )
 
 FORMAT = "reportgen-results/1"
+SCHEMA_ID = "urn:reportgen:schema:results:1"
+"""The ``$id`` of the JSON Schema shipped as reportgen/results/results.schema.json."""
 
 
 def _participant(results: RoundResults, p: ParticipantResult) -> dict[str, Any]:
@@ -51,11 +53,36 @@ def _item(results: RoundResults, i: int) -> dict[str, Any]:
 
 def results_json(results: RoundResults) -> bytes:
     doc = {
+        "$schema": SCHEMA_ID,
         "format": FORMAT,
         "software": {"reportgen": __version__},
+        "interval_level": catalogue.INTERVAL_LEVEL,
         "round": round_json(results),
         "group": group_json(results),
         "items": [_item(results, i) for i in range(len(results.items))],
         "participants": [_participant(results, p) for p in results.participants],
+    }
+    return (json.dumps(doc, indent=1, ensure_ascii=False, allow_nan=False) + "\n").encode()
+
+
+PARTICIPANT_FORMAT = "reportgen-participant-results/1"
+
+
+def participant_results_json(results: RoundResults, p: ParticipantResult,
+                             report: str) -> bytes:
+    """One participant's own results (their object of results.json, with the round named), as
+    embedded in their certificate PDF. Nothing of another participant: no round warnings, items
+    or group block (the group's figures are printed in the certificate)."""
+    info = results.round.config.round
+    doc = {
+        "format": PARTICIPANT_FORMAT,
+        "software": {"reportgen": __version__},
+        "report_id": report,
+        "round": {"id": info.id, "scheme": info.scheme, "title": info.title,
+                  "issued": info.issued.isoformat(), "status": info.status,
+                  "provider": results.round.config.provider.name,
+                  "n_participants": results.round.n_participants,
+                  "n_items": results.round.n_items},
+        "participant": _participant(results, p),
     }
     return (json.dumps(doc, indent=1, ensure_ascii=False, allow_nan=False) + "\n").encode()

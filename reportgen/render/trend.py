@@ -19,9 +19,10 @@ import jinja2
 from reportgen import __version__, catalogue
 from reportgen.archive.trend import ALPHA, ChangeTest, RoundPoint, Trend
 from reportgen.errors import BuildError
-from reportgen.render import charts, wording
+from reportgen.render import charts, html_parts, wording
 from reportgen.render.environment import environment
 from reportgen.render.pdf import html_to_pdf
+from reportgen.render.wording import statements
 from reportgen.render.wording import trend as trend_wording
 from reportgen.results.model import Metric
 from reportgen.settings import Settings
@@ -55,15 +56,33 @@ INSIGHT_PANELS: tuple[tuple[str, str, float], ...] = (
 # Charts
 
 
-def _series(points: Sequence[RoundPoint], name: str) -> list[dict[str, Any]]:
+GAP_SHARE_TITLE = "Confidence gap, share of the scale\u2019s range"
+
+
+def mixed_scales(points: Sequence[RoundPoint]) -> bool:
+    """Whether the rounds used different confidence scales (their gaps are then in different
+    units and are drawn as a share of each scale's range)."""
+    return len({p.levels for p in points}) > 1
+
+
+def _span(levels: Sequence[float]) -> float | None:
+    return (max(levels) - min(levels)) if len(levels) > 1 else None
+
+
+def _series(points: Sequence[RoundPoint], name: str, *, per_range: bool = False
+            ) -> list[dict[str, Any]]:
+    """One measure over the rounds; ``per_range`` divides each round's values by the range of
+    its confidence scale (lowest to highest level), so gaps on a 1\u20135 and a 1\u20137 scale
+    share one axis (0: no gap, 1: the whole scale). Rounds without a known scale are left out."""
     rows = []
     for p in points:
         m = p.metrics[name]
-        if m.value is None:
+        span = _span(p.levels) if per_range else 1.0
+        if m.value is None or span is None:
             continue
-        rows.append({"round": p.round_id, "value": m.value,
-                     "low": m.low if m.low is not None else m.value,
-                     "high": m.high if m.high is not None else m.value})
+        rows.append({"round": p.round_id, "value": m.value / span,
+                     "low": (m.low if m.low is not None else m.value) / span,
+                     "high": (m.high if m.high is not None else m.value) / span})
     return rows
 
 
@@ -116,9 +135,14 @@ def rates_chart(points: Sequence[RoundPoint], *, accent: str) -> alt.TopLevelMix
 def insight_chart(points: Sequence[RoundPoint], *, accent: str) -> alt.TopLevelMixin:
     """d′ and the insight measures over the rounds, each with its reference value."""
     order = [p.round_id for p in points]
-    return _grid([metric_panel(_series(points, name), order, title, accent=accent,
-                               percent=False, reference=ref)
-                  for name, title, ref in INSIGHT_PANELS])
+    mixed = mixed_scales(points)
+    panels = []
+    for name, title, ref in INSIGHT_PANELS:
+        per_range = mixed and name == "conf_gap"
+        panels.append(metric_panel(_series(points, name, per_range=per_range), order,
+                                   GAP_SHARE_TITLE if per_range else title, accent=accent,
+                                   percent=False, reference=ref))
+    return _grid(panels)
 
 
 def control_chart(points: Sequence[RoundPoint], *, accent: str) -> alt.TopLevelMixin:
@@ -189,7 +213,7 @@ def _standing_rows(trend: Trend) -> list[dict[str, Any]]:
             "round": p.round_id, "n": s.n_group,
             "x_star": wording.fmt_percent(s.x_star), "s_star": wording.fmt_percent(s.s_star),
             "accuracy": wording.fmt_value("accuracy", p.metrics["accuracy"]),
-            "z": wording.fmt_signed(s.z), "band": s.band, "classification": s.classification,
+            "z": statements.fmt_z(s.z), "band": s.band, "classification": s.classification,
             "note": s.note or "",
             "class": {"satisfactory": "ok", "unsatisfactory": "fail"}.get(s.classification,
                                                                           "neutral"),
@@ -279,7 +303,14 @@ def trend_context(trend: Trend, settings: Settings) -> dict[str, Any]:
             "control": charts.image(control_chart(trend.points, accent=accent)),
         },
         "cautions": wording.CAUTIONS + TREND_CAUTIONS,
+        "mixed_scales": mixed_scales(trend.points),
+        "scales": [{"round": p.round_id, "scale": _scale(p.levels)} for p in trend.points],
+        **html_parts.html_context(),
     }
+
+
+def _scale(levels: Sequence[float]) -> str:
+    return f"{min(levels):g}\u2013{max(levels):g}" if levels else wording.DASH
 
 
 def render_trend_html(trend: Trend, settings: Settings) -> str:

@@ -63,6 +63,18 @@ class LevelRow:
     probability: float | None  # the level read as a probability of being right, when calibrated
 
 
+@dataclass(frozen=True)
+class ConclusionRow:
+    """One label of a graded conclusion scale: how often it was given on same-source (positive)
+    and on different-source items."""
+
+    label: str  # in the scheme's own words
+    asserts: str  # the class it asserts, or "inconclusive"
+    strength: int | None
+    on_same: int
+    on_different: int
+
+
 Overall = Literal["all criteria met", "not all criteria met", "no criteria announced"]
 
 
@@ -79,6 +91,8 @@ class ParticipantResult:
     # on same-source items: the table meta-d′ is fitted on, kept so rounds can be pooled.
     rating_noise: tuple[int, ...] = ()
     rating_signal: tuple[int, ...] = ()
+    # A graded conclusion scale: every label's answers by true class (empty when ungraded).
+    conclusions: tuple[ConclusionRow, ...] = ()
 
 
 @dataclass(frozen=True)
@@ -142,6 +156,7 @@ class GroupResult:
     self_estimates_note: str | None = None  # why there is no view, when there is none
     ability_groups: tuple[AbilityGroup, ...] = ()
     ideal_curve: tuple[IdealPoint, ...] = ()
+    conclusions: tuple[ConclusionRow, ...] = ()  # graded scales: pooled over the group
 
 
 @dataclass(frozen=True, eq=False)
@@ -161,3 +176,30 @@ class PreviousRound:
     accuracy: Metric
     type2_auroc: Metric
     overall: str
+
+
+@dataclass(frozen=True)
+class IssuedDocument:
+    """One certificate (``code``) or the group appendix (``code == ""``) as issued.
+
+    ``content_sha256`` fingerprints the document's content: the SHA-256 of its HTML rendered with
+    the round's base report id and no amendment notice, so an amended round can tell which
+    documents really changed. ``replaces`` is the report id this one replaced, if any.
+    """
+
+    code: str
+    report_id: str
+    content_sha256: str
+    issued: dt.date
+    replaces: str | None = None
+    replaced_issued: dt.date | None = None
+    reason: str | None = None
+
+
+@dataclass(frozen=True)
+class Amendment:
+    """Why and when a round's reports are amended (``issue --replace``): the tool never reads
+    the clock, so the date is the provider's."""
+
+    reason: str
+    amended_on: dt.date

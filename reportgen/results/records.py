@@ -2,32 +2,40 @@
 
 Numbers and reason phrases only: :mod:`reportgen.render.results_json` adds the statements of
 results.json, and the archive stores these records as they are. Metric keys are the catalogue's
-names (:mod:`reportgen.catalogue`). A metric that is not estimable is ``null`` with a sibling
-``<name>_note`` giving the reason; an interval is ``<name>_ci: [low, high]``.
+names (:mod:`reportgen.catalogue`). Every metric has the same three keys in every participant
+object: ``<name>`` (``null`` when not estimable), ``<name>_ci`` (``[low, high]``, or ``null``
+when there is no interval) and ``<name>_note`` (the reason or caution, or ``null``). Floats are
+written at full precision (the shortest text that reads back as the same double), so the
+workbook and results.json hold the same numbers. The format is described in
+docs/results-format.md and checked by ``results.schema.json`` beside this module.
 """
 
 from __future__ import annotations
 
+import json
 import math
 from dataclasses import asdict
+from functools import cache
+from importlib import resources
 from typing import Any
 
 from reportgen.results.model import ItemResult, Metric, ParticipantResult, RoundResults
 
+NO_ESTIMATE = "no self-estimate given"  # self_estimate_note of a participant without one
+
 
 def number(x: float | None) -> float | None:
-    """A finite float as written to JSON (12 significant digits), else None."""
+    """A finite float as written to JSON (at full precision), else None."""
     if x is None or not math.isfinite(x):
         return None
-    return float(f"{x:.12g}")
+    return float(x)
 
 
 def _metric(name: str, m: Metric, into: dict[str, Any]) -> None:
     into[name] = number(m.value)
-    if m.low is not None or m.high is not None:
-        into[f"{name}_ci"] = [number(m.low), number(m.high)]
-    if m.note is not None:
-        into[f"{name}_note"] = m.note
+    has_ci = m.low is not None or m.high is not None
+    into[f"{name}_ci"] = [number(m.low), number(m.high)] if has_ci else None
+    into[f"{name}_note"] = m.note
 
 
 def participant_json(results: RoundResults, p: ParticipantResult) -> dict[str, Any]:
@@ -44,9 +52,13 @@ def participant_json(results: RoundResults, p: ParticipantResult) -> dict[str, A
                        for c in p.criteria]
     out["rating_table"] = {"different_source": list(p.rating_noise),
                            "same_source": list(p.rating_signal)}
+    if p.conclusions:  # graded conclusion scales: every level's answers by true class
+        out["conclusions"] = [asdict(row) for row in p.conclusions]
     out["overall"] = p.overall
-    if results.round.estimates is not None and p.code in results.round.estimates:
-        out["self_estimate"] = number(results.round.estimates[p.code])
+    if results.round.estimates is not None:  # the same keys for everyone in the round
+        given = results.round.estimates.get(p.code)
+        out["self_estimate"] = number(given)
+        out["self_estimate_note"] = None if given is not None else NO_ESTIMATE
     return out
 
 
@@ -63,8 +75,9 @@ def round_json(results: RoundResults) -> dict[str, Any]:
         "status": cfg.round.status,
         "provider": cfg.provider.model_dump(),
         "classes": {"labels": list(cfg.classes.labels), "positive": cfg.classes.positive},
-        "decisions": dict(sorted(cfg.decisions.items())),
-        "confidence": cfg.confidence.model_dump(),
+        "decisions": {k: g.dump() for k, g in sorted(cfg.decisions.items())},
+        "confidence": cfg.confidence.model_dump(  # the keys of round.toml before bins/source
+            exclude_none=True, exclude={"source"} if cfg.confidence.source == "column" else None),
         "scoring": cfg.scoring.model_dump(),
         "criteria": [c.model_dump() for c in cfg.criteria],
         "n_participants": rnd.n_participants,
@@ -88,6 +101,8 @@ def group_json(results: RoundResults) -> dict[str, Any]:
                    for k, v in group.robust.items()},
         "error_types": group.error_types,
         "levels": [asdict(level) for level in group.levels],
+        **({"conclusions": [asdict(row) for row in group.conclusions]}
+           if group.conclusions else {}),
     }
 
 
@@ -95,3 +110,11 @@ def item_json(item: ItemResult) -> dict[str, Any]:
     return {**asdict(item), **{f: number(getattr(item, f)) for f in
                                ("difficulty", "discrimination", "inconclusive_rate",
                                 "strong_against")}}
+
+
+@cache
+def results_schema() -> dict[str, Any]:
+    """The JSON Schema (draft 2020-12) of results.json, shipped beside this module."""
+    text = (resources.files(__package__) / "results.schema.json").read_text(encoding="utf-8")
+    schema: dict[str, Any] = json.loads(text)
+    return schema

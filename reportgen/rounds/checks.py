@@ -11,26 +11,34 @@ from reportgen.errors import ProblemLog
 from reportgen.rounds.tables import Table
 
 __all__ = ["Labels", "did_you_mean", "location", "non_text_codes", "require_columns",
-           "zero_twins"]
+           "row_ranges", "zero_twins"]
 
 
 def location(table: Table, row: int, column: str | None = None) -> dict[str, str | int | None]:
     return {"sheet": table.sheet, "row": row, "column": column}
 
 
-def require_columns(table: Table, names: Sequence[str], log: ProblemLog) -> bool:
-    ok = True
-    for name in names:
-        if not table.has(name):
-            log.error(
-                table.file,
-                f"required column {name!r} is missing",
-                sheet=table.sheet,
-                row=table.header_row,
-                allowed="columns present: " + ", ".join(table.columns),
-            )
-            ok = False
-    return ok
+def require_columns(table: Table, names: Sequence[str], log: ProblemLog, *,
+                    keys: Sequence[str] = (), table_key: str = "",
+                    consequence: str = "") -> bool:
+    """Report each missing column once, with what it stops (``consequence``) and how to name a
+    column that has another header (``keys[n]`` is the [columns] key of ``names[n]``; the
+    setting goes under ``[files.<table_key>.columns]``). No error is then reported row by row."""
+    missing = [(n, name) for n, name in enumerate(names) if not table.has(name)]
+    for n, name in missing:
+        hint = ""
+        if n < len(keys) and table_key:
+            hint = (f"; if it has another header, name that header in round.toml: "
+                    f"[files.{table_key}.columns] {keys[n]} = \"…\"")
+        log.error(
+            table.file,
+            f"required column {name!r} is missing"
+            + (f", {consequence}" if consequence else "") + hint,
+            sheet=table.sheet,
+            row=table.header_row,
+            allowed="columns present: " + ", ".join(table.columns),
+        )
+    return not missing
 
 
 class Labels:
@@ -86,6 +94,7 @@ _NOT_TEXT = {
          "the code into a date",
     "b": "TRUE/FALSE in the spreadsheet, not text",
     "e": "a spreadsheet error value, not text",
+    "p": "a number formatted as a percentage in the spreadsheet, not text",
 }
 _FIX_TEXT = "format the column as Text, type the codes again and save"
 
@@ -121,15 +130,32 @@ def zero_twins(values: Iterable[str]) -> dict[str, list[str]]:
     return twins
 
 
-def did_you_mean(value: str, twins: dict[str, list[str]]) -> str:
-    """``"; did you mean '0042'? ..."`` when ``value`` matches a known code but for leading
-    zeros (a spreadsheet drops them from a code it reads as a number); else ``""``. Never a
-    guess: the value is still refused."""
+def did_you_mean(value: str, twins: dict[str, list[str]], here: str, there: str) -> str:
+    """``"; did you mean '0042' ..."`` when ``value`` (in file ``here``) matches a code of file
+    ``there`` but for leading zeros, naming the file to correct: a spreadsheet drops leading
+    zeros and never adds them, so the file with the shorter code is the one that changed.
+    ``""`` when there is no such code. Never a guess: the value is still refused."""
     if not (value.isascii() and value.isdigit()):
         return ""
     candidates = [c for c in twins.get(value.lstrip("0") or "0", []) if c != value]
     if not candidates:
         return ""
     shown = " or ".join(repr(c) for c in candidates)
-    return (f"; did you mean {shown}? A spreadsheet program may have dropped the leading zeros: "
-            "format the column as Text")
+    if all(len(c) > len(value) for c in candidates):
+        return (f"; did you mean {shown} (as in {there})? A spreadsheet program may have "
+                f"dropped the leading zeros in {here}: correct {here} (format the column as "
+                "Text and type the code again)")
+    return (f"; {there} has {shown}, probably this code with its leading zeros dropped by a "
+            f"spreadsheet program: correct {there} (format the column as Text and type the "
+            "code again)")
+
+
+def row_ranges(rows: Iterable[int]) -> str:
+    """Row numbers as runs: ``[2, 3, 4, 9]`` -> ``'2-4, 9'`` (every row is named)."""
+    runs: list[list[int]] = []
+    for row in sorted(set(rows)):
+        if runs and row == runs[-1][1] + 1:
+            runs[-1][1] = row
+        else:
+            runs.append([row, row])
+    return ", ".join(f"{a}" if a == b else f"{a}-{b}" for a, b in runs)

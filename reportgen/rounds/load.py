@@ -6,7 +6,7 @@ with all of them (:class:`~reportgen.errors.InputError`). Nothing is silently dr
 
 from __future__ import annotations
 
-import math
+from dataclasses import dataclass
 from pathlib import Path
 
 import numpy as np
@@ -21,7 +21,10 @@ from reportgen.rounds.checks import (
     zero_twins,
 )
 from reportgen.rounds.config import ROUND_FILE, load_config
+from reportgen.rounds.duplicates import keep_latest
+from reportgen.rounds.forms import ReturnedForms, is_form_pattern, read_forms
 from reportgen.rounds.model import Identity, Round, SourceFile
+from reportgen.rounds.percent import fraction_problem, percent_value
 from reportgen.rounds.responses import (
     check_codes,
     fill_matrices,
@@ -33,19 +36,23 @@ from reportgen.rounds.schema import RoundConfig
 from reportgen.rounds.tables import ReadLimits, Table, find_table, read_table
 
 
-def _read(folder: Path, stem: str, explicit: str | None, cfg: RoundConfig, log: ProblemLog,
+def _read(folder: Path, stem: str, cfg: RoundConfig, log: ProblemLog,
           *, required: bool, limits: ReadLimits) -> Table | None:
-    path = find_table(folder, stem, explicit, log, required=required)
+    path = find_table(folder, stem, cfg.files.name(stem), log, required=required)
     if path is None:
         return None
-    return read_table(path, path.name, log, sheet=cfg.files.sheet, limits=limits)
+    return read_table(path, path.name, log, sheet=cfg.files.sheet_of(stem), limits=limits)
 
 
 def _items(table: Table, cfg: RoundConfig, log: ProblemLog) -> tuple[
-        list[str], list[str], dict[str, tuple[str, ...]]]:
-    col = cfg.columns
-    if not require_columns(table, (col.item, col.truth), log):
-        return [], [], {}
+        list[str], list[str], dict[str, tuple[str, ...]]] | None:
+    """The key's item ids, truth labels and other columns; ``None`` when a required column is
+    missing (then no response is checked against the key: one error, not one per row)."""
+    col = cfg.columns_for("items")
+    if not require_columns(table, (col.item, col.truth), log, keys=("item", "truth"),
+                           table_key="items",
+                           consequence="so the key cannot be read and no response is checked"):
+        return None
     labels = Labels(cfg.classes.labels, cfg.scoring.normalise_labels, "truth class", log)
     non_text_codes(table, col.item, "item id", log)
     items: list[str] = []
@@ -82,17 +89,23 @@ def _items(table: Table, cfg: RoundConfig, log: ProblemLog) -> tuple[
 
 
 def _identities(table: Table, cfg: RoundConfig, codes: set[str],
-                log: ProblemLog) -> dict[str, Identity]:
-    col = cfg.columns
-    if not require_columns(table, (col.participant,), log):
-        return {}
+                log: ProblemLog) -> dict[str, Identity] | None:
+    """Names by code; ``None`` when the code column is missing (reported once, with how many
+    participants it leaves unmatched)."""
+    col = cfg.columns_for("participants")
+    if not require_columns(table, (col.participant,), log, keys=("participant",),
+                           table_key="participants",
+                           consequence=f"so none of the {len(codes)} participants who responded "
+                           "can be matched to a name (no other error of this file is listed)"):
+        return None
     non_text_codes(table, col.participant, "participant code", log)
     names = table.column(col.name) if table.has(col.name) else ("",) * len(table.rows)
     orgs = (table.column(col.organisation) if table.has(col.organisation)
             else ("",) * len(table.rows))
+    emails = table.column(col.email) if table.has(col.email) else ("",) * len(table.rows)
     out: dict[str, Identity] = {}
-    for code, name, org, row in zip(table.column(col.participant), names, orgs,
-                                    table.row_numbers, strict=True):
+    for code, name, org, email, row in zip(table.column(col.participant), names, orgs, emails,
+                                           table.row_numbers, strict=True):
         if code.strip() == "":
             log.error(table.file, "participant code is blank",
                       **location(table, row, col.participant))
@@ -100,21 +113,32 @@ def _identities(table: Table, cfg: RoundConfig, codes: set[str],
             log.error(table.file, "participant listed twice", value=code,
                       **location(table, row, col.participant))
         else:
-            out[code] = Identity(name=name.strip(), organisation=org.strip())
+            out[code] = Identity(name=name.strip(), organisation=org.strip(),
+                                 email=email.strip())
     for code in sorted(set(out) - codes):
         log.warn(table.file, "participant listed but gave no responses", value=code,
                  sheet=table.sheet, column=col.participant)
     return out
 
 
-def _estimates(table: Table, cfg: RoundConfig, codes: set[str],
+def _estimates(table: Table, cfg: RoundConfig, codes: set[str], responses_file: str,
                log: ProblemLog) -> dict[str, float]:
-    col = cfg.columns
-    if not require_columns(table, (col.participant, col.estimate), log):
+    col = cfg.columns_for("estimates")
+    if not require_columns(table, (col.participant, col.estimate), log,
+                           keys=("participant", "estimate"), table_key="estimates",
+                           consequence="so no self-estimate is read"):
         return {}
     twins = zero_twins(codes)
     skip = non_text_codes(table, col.participant, "participant code", log)
     whens = table.column(col.when) if table.has(col.when) else ("after",) * len(table.rows)
+    fractions = fraction_problem(table.column(col.estimate), "estimate", 100)
+    if fractions is not None:
+        at = next(n for n, text in enumerate(table.column(col.estimate)) if text.strip())
+        log.error(table.file, fractions, value=table.column(col.estimate)[at],
+                  allowed="numbers 0 to 100 (percent of items right)",
+                  **location(table, table.row_numbers[at], col.estimate))
+        return {}
+    required = cfg.scoring.estimates_required
     parsed: dict[tuple[str, str], float] = {}
     for code, text, when, row in zip(table.column(col.participant), table.column(col.estimate),
                                      whens, table.row_numbers, strict=True):
@@ -127,14 +151,13 @@ def _estimates(table: Table, cfg: RoundConfig, codes: set[str],
             continue
         if code not in codes:
             log.error(table.file, "estimate for a participant with no responses"
-                      + did_you_mean(code, twins), value=code,
+                      + did_you_mean(code, twins, table.file, responses_file), value=code,
                       **location(table, row, col.participant))
             continue
-        try:
-            value = float(text.strip().rstrip("%"))
-        except ValueError:
-            value = math.nan
-        if not 0 <= value <= 100:
+        if text.strip() == "" and not required:
+            continue  # a blank estimate is missing
+        value = percent_value(text)[0]
+        if value is None or not 0 <= value <= 100:
             log.error(table.file, "estimate is not a percentage", value=text,
                       allowed="numbers 0 to 100 (percent of items right)",
                       **location(table, row, col.estimate))
@@ -148,6 +171,12 @@ def _estimates(table: Table, cfg: RoundConfig, codes: set[str],
     for (code, when), value in sorted(parsed.items()):
         if when == "after" or code not in chosen:
             chosen[code] = value
+    if required:
+        for code in sorted(codes - set(chosen)):
+            log.error(table.file, "participant has no self-estimate", value=code,
+                      sheet=table.sheet, column=col.participant,
+                      allowed="an estimate for every participant ([scoring] estimates_required "
+                      "= true)")
     return chosen
 
 
@@ -157,41 +186,71 @@ def load_round(folder: Path, known_metrics: frozenset[str],
     cfg = load_config(folder, known_metrics)
     limits = limits or _read_limits(cfg)
     log = ProblemLog()
-    files = cfg.files
-    t_items = _read(folder, "items", files.items, cfg, log, required=True, limits=limits)
-    t_resp = _read(folder, "responses", files.responses, cfg, log, required=True, limits=limits)
-    t_people = _read(folder, "participants", files.participants, cfg, log, required=False,
-                     limits=limits)
-    t_est = _read(folder, "estimates", files.estimates, cfg, log, required=False, limits=limits)
+    t_items = _read(folder, "items", cfg, log, required=True, limits=limits)
+    key = _items(t_items, cfg, log) if t_items is not None else None
+    items, truths, attributes = key or ([], [], {})
+    forms = None
+    if is_form_pattern(cfg.files.name("responses")):  # returned response forms
+        forms = _forms(folder, cfg, items if key is not None else None, log, limits)
+        t_resp = forms.table if forms is not None else None
+    else:
+        t_resp = _read(folder, "responses", cfg, log, required=True, limits=limits)
+    t_people = _read(folder, "participants", cfg, log, required=False, limits=limits)
+    t_est = _read(folder, "estimates", cfg, log, required=False, limits=limits)
+    if t_est is None and cfg.scoring.estimates_required and not cfg.files.name("estimates"):
+        log.error("estimates", "no estimates.csv or estimates.xlsx in the round folder",
+                  allowed="an estimates file ([scoring] estimates_required = true)")
     if t_items is None or t_resp is None:
+        if t_resp is not None and (cfg.files.layout == "long" or forms is not None):
+            # The key could not be read: still report what is wrong in the answers themselves
+            # (labels, confidence values, codes), so that one problem does not hide the others.
+            # Item ids and coverage cannot be judged without the key: those checks run against
+            # the answers' own items, and only errors of the answers themselves are kept.
+            answers = long_answers(t_resp, cfg, log)
+            check_codes(answers, t_resp, log)
+            own = ProblemLog()
+            lenient = cfg.model_copy(update={"scoring": cfg.scoring.model_copy(
+                update={"allow_missing": True})})
+            fill_matrices(answers, t_resp, lenient, sorted({a.item for a in answers}), own)
+            log.extend(p for p in own.errors if "not in the key" not in p.message)
         log.raise_if_errors()
         raise AssertionError("unreachable: a required table failed without a logged problem")
 
-    items, truths, attributes = _items(t_items, cfg, log)
-    if cfg.files.layout == "long":
+    if cfg.files.layout == "long" or forms is not None:
         answers = long_answers(t_resp, cfg, log)
     else:
         answers = wide_answers(t_resp, cfg, items, log)
+    answers = keep_latest(answers, t_resp, cfg, log)
     check_codes(answers, t_resp, log)
-    matrices = fill_matrices(answers, t_resp, cfg, items, log)
+    if key is not None:
+        matrices = fill_matrices(answers, t_resp, cfg, items, log, key_file=t_items.file)
+    else:
+        matrices = fill_matrices([], t_resp, cfg, items, log)
     if not matrices.participants and not log.errors:
         no_responses(t_resp, cfg, items, log)
     codes = set(matrices.participants)
-    identities = _identities(t_people, cfg, codes, log) if t_people is not None else None
-    if identities is not None:
+    responded = bool(codes)  # else every code check of the other files would be a knock-on
+    identities = (_identities(t_people, cfg, codes, log)
+                  if t_people is not None and responded else None)
+    if identities is not None and t_people is not None:
         twins = zero_twins(identities)
         for code in sorted(codes - set(identities)):
-            log.error(t_resp.file, "participant code is not in the participants file "
-                      f"{t_people.file if t_people else ''}" + did_you_mean(code, twins),
+            log.error(t_resp.file, f"participant code is not in the participants file "
+                      f"{t_people.file}" + did_you_mean(code, twins, t_resp.file, t_people.file),
                       value=code, sheet=t_resp.sheet, row=matrices.first_row[code],
-                      column=cfg.columns.participant)
-    estimates = _estimates(t_est, cfg, codes, log) if t_est is not None else None
+                      column=cfg.columns_for("responses").participant)
+    estimates = (_estimates(t_est, cfg, codes, t_resp.file, log)
+                 if t_est is not None and responded else None)
+    if estimates is None and forms is not None and forms.estimates:
+        estimates = forms.estimates
     log.raise_if_errors()
 
     positive = cfg.classes.positive
-    tables = [t for t in (t_items, t_resp, t_people, t_est) if t is not None]
+    tables = [t for t in (t_items, t_people, t_est) if t is not None]
+    tables += [t_resp] if forms is None else []
     sources = tuple(sorted([SourceFile(ROUND_FILE, _sha256(folder / ROUND_FILE))]
-                           + [SourceFile(t.file, t.sha256) for t in tables],
+                           + [SourceFile(t.file, t.sha256) for t in tables]
+                           + [SourceFile(*form) for form in (forms.sources if forms else ())],
                            key=lambda s: s.name))
     return Round(
         config=cfg,
@@ -204,10 +263,53 @@ def load_round(folder: Path, known_metrics: frozenset[str],
         decision=matrices.decision,
         confidence=matrices.confidence,
         raw_decision=matrices.raw,
+        strength_is_confidence=matrices.by_strength,
         identities=identities,
         estimates=estimates,
         warnings=tuple(log.warnings),
     )
+
+
+@dataclass(frozen=True)
+class FormRound:
+    """What response forms are made from: the settings, the key's item ids in order and the
+    participant codes of the participants file."""
+
+    config: RoundConfig
+    items: tuple[str, ...]
+    codes: tuple[str, ...]
+
+
+def load_form_round(folder: Path, known_metrics: frozenset[str]) -> FormRound:
+    """round.toml, the key and the participants file (required: it lists who gets a form)."""
+    cfg = load_config(folder, known_metrics)
+    limits = _read_limits(cfg)
+    log = ProblemLog()
+    t_items = _read(folder, "items", cfg, log, required=True, limits=limits)
+    key = _items(t_items, cfg, log) if t_items is not None else None
+    t_people = _read(folder, "participants", cfg, log, required=False, limits=limits)
+    if t_people is None and not log.errors:
+        log.error("participants", "no participants.csv or participants.xlsx in the round "
+                  "folder: response forms are made for the codes it lists")
+    roster = ProblemLog()
+    identities = _identities(t_people, cfg, set(), roster) if t_people is not None else None
+    log.extend(roster.errors)
+    log.raise_if_errors()
+    assert key is not None and identities is not None
+    return FormRound(cfg, tuple(key[0]), tuple(sorted(identities)))
+
+
+def _forms(folder: Path, cfg: RoundConfig, items: list[str] | None, log: ProblemLog,
+           limits: ReadLimits) -> ReturnedForms | None:
+    """The returned forms named by ``[files] responses``; not read when the key could not be
+    (a form is checked against the key's item list)."""
+    pattern = cfg.files.name("responses") or ""
+    if items is None:
+        return None
+    if cfg.files.layout != "long" or cfg.files.duplicates != "error":
+        log.error(ROUND_FILE, "returned response forms are read as they are: leave [files] "
+                  "layout and duplicates at their defaults", column="files")
+    return read_forms(folder, pattern, cfg, items, log, limits)
 
 
 def _read_limits(cfg: RoundConfig) -> ReadLimits:

@@ -36,6 +36,7 @@ class Identity:
 
     name: str = ""
     organisation: str = ""
+    email: str = ""  # for the provider's distribution list only; never printed on a report
 
 
 @dataclass(frozen=True, eq=False)
@@ -46,6 +47,8 @@ class Round:
     ``decision[p, i]`` is one of MISSING / SAID_NEGATIVE / SAID_POSITIVE / ABSTAINED.
     ``confidence[p, i]`` is the stated confidence on the scale of round.toml (NaN where missing).
     ``raw_decision[p, i]`` is the label as written (after any allowed normalisation).
+    ``strength_is_confidence``: the confidence is the strength of a graded conclusion (1 ..
+    ``config.max_strength``), the responses having no confidence column.
     """
 
     config: RoundConfig
@@ -61,6 +64,7 @@ class Round:
     identities: Mapping[str, Identity] | None = None
     estimates: Mapping[str, float] | None = None
     warnings: tuple[Problem, ...] = field(default=())
+    strength_is_confidence: bool = False
 
     @property
     def n_participants(self) -> int:

@@ -17,17 +17,23 @@ from reportgen.rounds.checks import (
     location,
     non_text_codes,
     require_columns,
+    row_ranges,
     zero_twins,
 )
 from reportgen.rounds.model import ABSTAINED, MISSING, SAID_NEGATIVE, SAID_POSITIVE
+from reportgen.rounds.percent import fraction_problem, percent_value
 from reportgen.rounds.schema import ABSTAIN, RoundConfig
+from reportgen.rounds.strength import strength_confidence, strength_sourced
 from reportgen.rounds.tables import Table
 
-__all__ = ["check_codes", "fill_matrices", "long_answers", "no_responses", "wide_answers"]
+__all__ = ["Answer", "check_codes", "fill_matrices", "long_answers", "no_responses",
+           "wide_answers"]
+
+_RESPONSES_LOST = "so the responses cannot be read"
 
 
 @dataclass(frozen=True)
-class _Answer:
+class Answer:
     """One response row in canonical (long) form, with where it came from."""
 
     participant: str
@@ -38,25 +44,30 @@ class _Answer:
     columns: tuple[str, str, str, str]  # participant, item, decision, confidence column names
 
 
-def long_answers(table: Table, cfg: RoundConfig, log: ProblemLog) -> list[_Answer]:
-    col = cfg.columns
-    names = (col.participant, col.item, col.decision, col.confidence)
-    if not require_columns(table, names, log):
+def long_answers(table: Table, cfg: RoundConfig, log: ProblemLog) -> list[Answer]:
+    col = cfg.columns_for("responses")
+    by_strength = strength_sourced(table, cfg, log)  # no confidence column: strength stands in
+    keys = ("participant", "item", "decision") + (() if by_strength else ("confidence",))
+    names = tuple(getattr(col, key) for key in keys)
+    if not require_columns(table, names, log, keys=keys, table_key="responses",
+                           consequence=_RESPONSES_LOST):
         return []
     skip = (non_text_codes(table, col.participant, "participant code", log)
             | non_text_codes(table, col.item, "item id", log))
-    columns = [table.column(n) for n in names]
+    columns = [table.column(n) for n in names] + [("",) * len(table.rows)] * by_strength
+    names += (col.confidence,) * by_strength
     return [
-        _Answer(p, i, d, c, row, names)
+        Answer(p, i, d, c, row, names)
         for p, i, d, c, row in zip(*columns, table.row_numbers, strict=True)
         if row not in skip
     ]
 
 
 def wide_answers(table: Table, cfg: RoundConfig, items: Sequence[str],
-                  log: ProblemLog) -> list[_Answer]:
-    col = cfg.columns
-    if not require_columns(table, (col.participant,), log):
+                  log: ProblemLog) -> list[Answer]:
+    col = cfg.columns_for("responses")
+    if not require_columns(table, (col.participant,), log, keys=("participant",),
+                           table_key="responses", consequence=_RESPONSES_LOST):
         return []
     known = set(items)
     pairs: list[tuple[str, str, str]] = []
@@ -84,7 +95,7 @@ def wide_answers(table: Table, cfg: RoundConfig, items: Sequence[str],
                                 strict=True):
             if (d == "" and c == "") or row in skip:
                 continue  # not answered: reported as a missing item later
-            answers.append(_Answer(p, item, d, c, row, (col.participant, dcol, dcol, ccol)))
+            answers.append(Answer(p, item, d, c, row, (col.participant, dcol, dcol, ccol)))
     return answers
 
 
@@ -101,8 +112,12 @@ def _parse_confidence(text: str, cfg: RoundConfig) -> tuple[float | None, str | 
     scale = cfg.confidence
     allowed = (f"whole numbers {scale.min:g} to {scale.max:g}" if scale.kind == "ordinal"
                else f"numbers {scale.min:g} to {scale.max:g} (percent)")
+    if scale.kind == "probability":
+        value = percent_value(text)[0]
+        return (value, None) if value is not None and scale.min <= value <= scale.max else (
+            None, allowed)
     try:
-        value = float(text.strip().replace(",", ".") if scale.kind == "probability" else text)
+        value = float(text)
     except ValueError:
         return None, allowed
     if not math.isfinite(value) or not scale.min <= value <= scale.max:
@@ -123,7 +138,7 @@ def _fold_code(code: str) -> str:
     return unicodedata.normalize("NFKC", code).strip().casefold()
 
 
-def check_codes(answers: Sequence[_Answer], table: Table, log: ProblemLog) -> None:
+def check_codes(answers: Sequence[Answer], table: Table, log: ProblemLog) -> None:
     """Participant codes must be non-blank and must not differ only by case/space/Unicode form."""
     first_row: dict[str, int] = {}
     for a in answers:
@@ -169,10 +184,13 @@ class _Matrices:
     confidence: np.ndarray
     raw: np.ndarray
     first_row: dict[str, int]
+    by_strength: bool = False  # the confidence is the conclusions' strength
 
 
-def fill_matrices(answers: Sequence[_Answer], table: Table, cfg: RoundConfig,
-                   items: Sequence[str], log: ProblemLog) -> _Matrices:
+def fill_matrices(answers: Sequence[Answer], table: Table, cfg: RoundConfig,
+                   items: Sequence[str], log: ProblemLog, key_file: str = "the key") -> _Matrices:
+    """The matrices of the answers, logging every answer that cannot be scored. ``key_file``
+    names the items file in "did you mean" messages."""
     item_index = {item: i for i, item in enumerate(items)}
     twins = zero_twins(items)
     decisions = Labels(sorted(cfg.decisions), cfg.scoring.normalise_labels, "decision label",
@@ -190,6 +208,9 @@ def fill_matrices(answers: Sequence[_Answer], table: Table, cfg: RoundConfig,
     confidence = np.full(shape, np.nan)
     raw = np.full(shape, "", dtype=object)
     seen: dict[tuple[str, str], int] = {}
+    repeats: dict[str, list[tuple[int, int]]] = defaultdict(list)
+    fractions = _fraction_check(answers, table, cfg, log)
+    by_strength = cfg.files.layout == "long" and strength_sourced(table, cfg)
     for a in answers:
         _, icol, dcol, ccol = a.columns
         if a.participant.strip() == "":
@@ -198,22 +219,21 @@ def fill_matrices(answers: Sequence[_Answer], table: Table, cfg: RoundConfig,
         if i is None:
             if cfg.files.layout == "long":
                 log.error(table.file, "response to an item that is not in the key"
-                          + did_you_mean(a.item, twins),
+                          + did_you_mean(a.item, twins, table.file, key_file),
                           value=a.item, allowed="the item ids of the key",
                           **location(table, a.row, icol))
             continue
         key = (a.participant, a.item)
         if key in seen:
-            log.error(table.file, f"second response of participant {a.participant!r} to item "
-                      f"{a.item!r} (first at row {seen[key]})", value=a.item,
-                      **location(table, a.row, icol))
+            repeats[a.participant].append((a.row, seen[key]))
             continue
         seen[key] = a.row
         label = decisions.match(a.decision, table, a.row, dcol)
-        target = cfg.decisions.get(label) if label is not None else None
-        conf, allowed = _parse_confidence(a.confidence, cfg)
-        blank_ok = a.confidence.strip() == "" and target == ABSTAIN
-        if conf is None and not blank_ok:
+        target = cfg.decision_classes.get(label) if label is not None else None
+        conf, allowed = (_parse_confidence(a.confidence, cfg) if not by_strength
+                         else (strength_confidence(cfg, label), None))
+        blank_ok = (a.confidence.strip() == "" and target == ABSTAIN) or by_strength
+        if conf is None and not blank_ok and not fractions:
             log.error(table.file, _confidence_problem(a.confidence, cfg), value=a.confidence,
                       allowed=allowed, **location(table, a.row, ccol))
             continue
@@ -223,24 +243,70 @@ def fill_matrices(answers: Sequence[_Answer], table: Table, cfg: RoundConfig,
         decision[p, i] = code_of[target]
         confidence[p, i] = np.nan if conf is None else conf
         raw[p, i] = label
-    decisions.report(table.file, answers[0].columns[2] if answers else cfg.columns.decision)
+    decisions.report(table.file,
+                     answers[0].columns[2] if answers else cfg.columns_for("responses").decision)
+    _report_repeats(repeats, table, cfg, log)
     _check_coverage(decision, participants, items, first_row, table, cfg, log)
-    return _Matrices(participants, decision, confidence, raw.astype(str), first_row)
+    return _Matrices(participants, decision, confidence, raw.astype(str), first_row,
+                     by_strength)
+
+
+def _fraction_check(answers: Sequence[Answer], table: Table, cfg: RoundConfig,
+                    log: ProblemLog) -> bool:
+    """On a probability scale, refuse (once) confidences that are all between 0 and 1."""
+    scale = cfg.confidence
+    if scale.kind != "probability" or not answers:
+        return False
+    problem = fraction_problem((a.confidence for a in answers), "confidence", scale.max)
+    if problem is None:
+        return False
+    first = next(a for a in answers if a.confidence.strip())
+    log.error(table.file, problem, value=first.confidence,
+              allowed=f"numbers {scale.min:g} to {scale.max:g} (percent)",
+              **location(table, first.row, first.columns[3]))
+    return True
+
+
+def _report_repeats(repeats: dict[str, list[tuple[int, int]]], table: Table, cfg: RoundConfig,
+                    log: ProblemLog) -> None:
+    """One error per participant with repeated answers, naming every repeated row."""
+    col = cfg.columns_for("responses")
+    for code, pairs in sorted(repeats.items()):
+        rows = [row for row, _ in pairs]
+        firsts = sorted({first for _, first in pairs})
+        verb = "repeats" if len(rows) == 1 else "repeat"
+        log.error(table.file, f"participant {code!r} answered {len(pairs)} item(s) more than "
+                  f"once: {_rows(rows)} {verb} the answers of {_rows(firsts)}; delete the rows "
+                  "that should not count, or set [files] duplicates = \"latest\" in round.toml "
+                  f"to keep each participant's latest submission (by its {col.submitted!r} "
+                  "column)", value=code, **location(table, min(rows), col.participant))
+
+
+def _rows(rows: Sequence[int]) -> str:
+    return ("row " if len(rows) == 1 else "rows ") + row_ranges(rows)
 
 
 def _confidence_problem(text: str, cfg: RoundConfig) -> str:
     """What is wrong with a confidence that :func:`_parse_confidence` refused."""
     if text.strip() == "":
         return "confidence is blank"
-    try:
-        value = float(text.replace(",", "."))
-    except ValueError:
-        return "confidence is not a number"
     scale = cfg.confidence
+    number = (percent_value(text)[0] if scale.kind == "probability"
+              else _float(text.replace(",", ".")))
+    if number is None:
+        return "confidence is not a number"
+    value = number
     if (scale.kind == "ordinal" and math.isfinite(value) and scale.min <= value <= scale.max
             and value != int(value)):
         return "confidence is not a whole number (the scale is ordinal)"
     return "confidence is outside the scale"
+
+
+def _float(text: str) -> float | None:
+    try:
+        return float(text)
+    except ValueError:
+        return None
 
 
 def _check_coverage(decision: np.ndarray, participants: Sequence[str], items: Sequence[str],
@@ -252,7 +318,7 @@ def _check_coverage(decision: np.ndarray, participants: Sequence[str], items: Se
     missing = decision == MISSING
     for i in np.flatnonzero(missing.all(axis=0)).tolist():
         log.error(table.file, "item of the key that no participant answered", value=items[i],
-                  sheet=table.sheet, column=cfg.columns.item,
+                  sheet=table.sheet, column=cfg.columns_for("responses").item,
                   allowed="remove it from the key, or add the responses")
     partial = missing & ~missing.all(axis=0)
     for p in np.flatnonzero(partial.any(axis=1)).tolist():
@@ -261,10 +327,19 @@ def _check_coverage(decision: np.ndarray, participants: Sequence[str], items: Se
                                             else "")
         message = f"participant has no response to {len(skipped)} item(s): {shown}"
         where = {"sheet": table.sheet, "row": first_row[participants[p]],
-                 "column": cfg.columns.participant}
+                 "column": cfg.columns_for("responses").participant}
         if cfg.scoring.allow_missing:
             log.warn(table.file, message + " (scored as missing)", value=participants[p],
                      **where)
         else:
             log.error(table.file, message, value=participants[p],
                       allowed="every item answered, or [scoring] allow_missing = true", **where)
+
+
+def checked_confidence(text: str, cfg: RoundConfig) -> tuple[float | None, str, str]:
+    """The confidence as a number (``None`` when refused), what is wrong with it and what is
+    allowed: for readers of other layouts, such as the response forms."""
+    value, allowed = _parse_confidence(text, cfg)
+    if value is not None:
+        return value, "", ""
+    return None, _confidence_problem(text, cfg), allowed or ""

@@ -7,12 +7,9 @@ from __future__ import annotations
 
 import datetime as dt
 import re
-import unicodedata
 from typing import Literal
 
 from pydantic import (
-    BaseModel,
-    ConfigDict,
     Field,
     ValidationInfo,
     field_validator,
@@ -20,26 +17,33 @@ from pydantic import (
 )
 
 from reportgen.metrics.stability import FEW_ERRORS_THRESHOLD
+from reportgen.rounds.schema_base import ABSTAIN, _fold, _no_control_characters, _Table
+from reportgen.rounds.schema_files import (
+    TABLE_COLUMNS,
+    Columns,
+    Files,
+    Limits,
+    TableFile,
+    Wide,
+)
+from reportgen.rounds.schema_scales import (
+    DEFAULT_BINS,
+    ERRORS_AT_STRENGTH,
+    MAX_LEVELS,
+    MAX_STRENGTH,
+    STRONGEST_ERRORS,
+    Classes,
+    Confidence,
+    Grade,
+    _graded_problems,
+)
 
-ABSTAIN = "inconclusive"
-"""What a decision label maps to when it is an abstention rather than a claim about a class."""
-
-
-class _Table(BaseModel):
-    model_config = ConfigDict(extra="forbid", frozen=True, allow_inf_nan=False)
-
-
-_CONTROL = re.compile(r"[\x00-\x1f\x7f]")
-
-
-def _no_control_characters(value: str | None, what: str) -> None:
-    if value is not None and _CONTROL.search(value):
-        raise ValueError(f"{what} contains a control character (such as a NUL or a line break)")
-
-
-def _fold(label: str) -> str:
-    """A label as compared when ``normalise_labels`` is on: NFKC, stripped, any case."""
-    return unicodedata.normalize("NFKC", label).strip().casefold()
+__all__ = [
+    "ABSTAIN", "DEFAULT_BINS", "ERRORS_AT_STRENGTH", "MAX_LEVELS", "MAX_STRENGTH",
+    "STRONGEST_ERRORS", "TABLE_COLUMNS", "Authoriser", "Classes", "Columns", "Confidence",
+    "Criterion", "Files", "Grade", "Limits", "Provider", "RoundConfig", "RoundInfo", "Scoring",
+    "TableFile", "Wide",
+]
 
 
 class RoundInfo(_Table):
@@ -65,6 +69,20 @@ class RoundInfo(_Table):
         return self
 
 
+class Authoriser(_Table):
+    """[provider] authorised_by: who authorises the reports (ISO/IEC 17043 asks for the name and
+    function of the person authorising a report)."""
+
+    name: str = Field(min_length=1)
+    role: str = Field(min_length=1)
+
+    @field_validator("name", "role")
+    @classmethod
+    def _plain(cls, value: str) -> str:
+        _no_control_characters(value, "the text")
+        return value
+
+
 class Provider(_Table):
     """[provider]: the provider block printed on every report. Branding is data, not code."""
 
@@ -73,6 +91,7 @@ class Provider(_Table):
     contact: str = ""
     logo: str | None = None
     accent: str = "#5f6b73"
+    authorised_by: Authoriser | None = None
 
     @field_validator("accent")
     @classmethod
@@ -88,70 +107,9 @@ class Provider(_Table):
         return value
 
 
-class Classes(_Table):
-    """[classes]: the truth classes and which one is the positive (same-source) class."""
-
-    labels: tuple[str, ...] = ("same", "different")
-    positive: str = "same"
-
-    @model_validator(mode="after")
-    def _positive_declared(self) -> Classes:
-        if len(self.labels) != 2:
-            raise ValueError("exactly two truth classes are supported (positive and negative)")
-        if len(set(self.labels)) != 2:
-            raise ValueError("the two truth classes must differ")
-        if self.positive not in self.labels:
-            raise ValueError(f"positive class {self.positive!r} is not one of labels {self.labels}")
-        for label in self.labels:
-            if not label.strip():
-                raise ValueError("a truth class label is blank")
-            if label == ABSTAIN:
-                raise ValueError(f"{ABSTAIN!r} is the abstention, not a truth class")
-        if _fold(self.labels[0]) == _fold(self.labels[1]):
-            raise ValueError("the two truth classes differ only by case or spaces")
-        return self
-
-    @property
-    def negative(self) -> str:
-        return next(c for c in self.labels if c != self.positive)
-
-
-class Confidence(_Table):
-    """[confidence]: the confidence scale.
-
-    ``kind = "ordinal"``: integers ``min..max``; ``probability_map = "linear"`` declares the
-    convention min -> ``map_low`` ... max -> 1.0 (by default 0.5 .. 1.0) so calibration can be
-    computed.
-    ``kind = "probability"``: numbers in ``min..max`` (e.g. 0-100 or 50-100) read as percent.
-    """
-
-    kind: Literal["ordinal", "probability"] = "ordinal"
-    min: float = 1
-    max: float = 5
-    probability_map: Literal["none", "linear"] = "none"
-    map_low: float = Field(default=0.5, ge=0.0, le=1.0)
-
-    @model_validator(mode="after")
-    def _scale_ok(self) -> Confidence:
-        if self.min >= self.max:
-            raise ValueError(f"min ({self.min:g}) must be below max ({self.max:g})")
-        if self.kind == "ordinal":
-            if self.min != int(self.min) or self.max != int(self.max):
-                raise ValueError("an ordinal scale needs whole-number min and max")
-            if self.max - self.min > 19:
-                raise ValueError("an ordinal scale may have at most 20 levels")
-        if self.kind == "probability" and not (self.min >= 0 and self.max <= 100):
-            raise ValueError("a probability scale is in percent: 0 <= min < max <= 100")
-        return self
-
-    @property
-    def levels(self) -> int:
-        """Number of ordinal levels (K). Probability scales are binned by distinct value."""
-        return int(self.max - self.min) + 1 if self.kind == "ordinal" else 0
-
-    @property
-    def calibration_applies(self) -> bool:
-        return self.kind == "probability" or self.probability_map == "linear"
+MIN_ANSWERED = 0.8
+"""Default of ``[scoring] min_answered``: below 80 % of the items answered, a participant's rates
+rest on a visibly different set of items from the group's (docs/round-format.md)."""
 
 
 class Scoring(_Table):
@@ -175,88 +133,16 @@ class Scoring(_Table):
         "from the simulation in docs/metacognition.md).",
     )
     seed: int = Field(default=20240601, ge=0)
-
-
-class Files(_Table):
-    """[files]: where the tables are. Each name may be .csv or .xlsx; ``None`` means discover."""
-
-    items: str | None = None
-    responses: str | None = None
-    participants: str | None = None
-    estimates: str | None = None
-    layout: Literal["long", "wide"] = "long"
-    sheet: str | None = Field(default=None, description="Sheet to read in xlsx files.")
-
-    @field_validator("items", "responses", "participants", "estimates", "sheet")
-    @classmethod
-    def _plain_name(cls, value: str | None) -> str | None:
-        _no_control_characters(value, "the name")
-        if value is not None and not value.strip():
-            raise ValueError("the name is blank; leave the key out to use the default")
-        return value
-
-
-class Limits(_Table):
-    """[limits]: the most reportgen reads from one table file. A file beyond a limit is refused,
-    and the message names the key here that would raise it. The ceilings keep the guards useful:
-    beyond them a workbook could exhaust memory before it is refused."""
-
-    max_rows: int = Field(default=200_000, ge=1, le=5_000_000)
-    max_cells: int = Field(default=5_000_000, ge=1, le=100_000_000)
-    max_file_mib: int = Field(default=256, ge=1, le=4096)
-    max_unpacked_mib: int = Field(default=512, ge=1, le=16384)
-    max_compression_ratio: float = Field(default=100.0, ge=2.0, le=10_000.0)
-
-
-class Columns(_Table):
-    """[columns]: column names, when a provider's files use other headers."""
-
-    participant: str = "participant"
-    item: str = "item"
-    truth: str = "truth"
-    decision: str = "decision"
-    confidence: str = "confidence"
-    name: str = "name"
-    organisation: str = "organisation"
-    estimate: str = "estimate"
-    when: str = "when"
-
-    @model_validator(mode="after")
-    def _distinct_in_each_file(self) -> Columns:
-        files = {
-            "items": ("item", "truth"),
-            "responses": ("participant", "item", "decision", "confidence"),
-            "participants": ("participant", "name", "organisation"),
-            "estimates": ("participant", "estimate", "when"),
-        }
-        for file, keys in files.items():
-            by_name: dict[str, list[str]] = {}
-            for key in keys:
-                by_name.setdefault(getattr(self, key).strip(), []).append(key)
-            for name, shared in by_name.items():
-                if len(shared) > 1:
-                    raise ValueError(f"{' and '.join(shared)} both name the column {name!r} of "
-                                     f"the {file} table; each needs its own column")
-            for key in keys:
-                if not getattr(self, key).strip():
-                    raise ValueError(f"the column name for {key} is blank")
-        return self
-
-
-class Wide(_Table):
-    """[wide]: the column patterns of a wide responses sheet; ``{item}`` stands for the item id."""
-
-    decision: str = "{item}_decision"
-    confidence: str = "{item}_confidence"
-
-    @model_validator(mode="after")
-    def _has_placeholder(self) -> Wide:
-        for pattern in (self.decision, self.confidence):
-            if pattern.count("{item}") != 1:
-                raise ValueError(f"pattern {pattern!r} must contain {{item}} exactly once")
-        if self.decision == self.confidence:
-            raise ValueError("decision and confidence patterns must differ")
-        return self
+    min_answered: float = Field(
+        default=MIN_ANSWERED, gt=0.0, le=1.0,
+        description="A participant who answered less than this share of the items is flagged "
+        "as incomplete and left out of the group statistics.",
+    )
+    estimates_required: bool = Field(
+        default=False,
+        description="Refuse the round when a participant's self-estimate is blank or absent "
+        "(by default a blank estimate is simply missing).",
+    )
 
 
 class Criterion(_Table):
@@ -294,10 +180,11 @@ class RoundConfig(_Table):
     round: RoundInfo
     provider: Provider
     classes: Classes = Classes()
-    decisions: dict[str, str] = Field(
+    decisions: dict[str, Grade] = Field(
         default_factory=lambda: {"same": "same", "different": "different",
                                  "inconclusive": ABSTAIN},
-        description="decision label -> truth class, or 'inconclusive' for an abstention",
+        description="decision label -> truth class, or 'inconclusive' for an abstention; on a "
+        "graded scale a table { class, strength, probability }",
         validate_default=True,
     )
     confidence: Confidence = Confidence()
@@ -308,16 +195,25 @@ class RoundConfig(_Table):
     criteria: tuple[Criterion, ...] = ()
     limits: Limits = Limits()
 
+    @field_validator("decisions", mode="before")
+    @classmethod
+    def _plain_labels(cls, decisions: object) -> object:
+        """``label = "same"`` is the table ``{ class = "same" }``."""
+        if isinstance(decisions, dict):
+            return {k: {"class": v} if isinstance(v, str) else v for k, v in decisions.items()}
+        return decisions
+
     @field_validator("decisions")
     @classmethod
-    def _decisions_consistent(cls, decisions: dict[str, str],
-                              info: ValidationInfo) -> dict[str, str]:
+    def _decisions_consistent(cls, decisions: dict[str, Grade],
+                              info: ValidationInfo) -> dict[str, Grade]:
         classes = info.data.get("classes")
         if not isinstance(classes, Classes):
             return decisions  # [classes] is invalid, and reported as such
         targets = set(classes.labels) | {ABSTAIN}
         folded: dict[str, str] = {}
-        for label, target in sorted(decisions.items()):
+        for label, grade in sorted(decisions.items()):
+            target = grade.target
             if not label.strip():
                 raise ValueError("a decision label is blank: a blank cell would be read as it")
             twin = folded.setdefault(_fold(label), label)
@@ -330,9 +226,55 @@ class RoundConfig(_Table):
                     f"({', '.join(classes.labels)}) nor {ABSTAIN!r}"
                 )
         for label in classes.labels:
-            if label not in decisions.values():
+            if label not in {g.target for g in decisions.values()}:
                 raise ValueError(f"no decision label maps to class {label!r}")
+        problem = _graded_problems(decisions)
+        if problem:
+            raise ValueError(problem)
         return decisions
+
+    @field_validator("confidence")
+    @classmethod
+    def _strength_declared(cls, confidence: Confidence, info: ValidationInfo) -> Confidence:
+        decisions = info.data.get("decisions")
+        if (confidence.source == "strength" and isinstance(decisions, dict)
+                and not any(g.strength for g in decisions.values())):
+            raise ValueError("source = 'strength' needs a graded conclusion scale: give the "
+                             "labels of [decisions] a strength ({ class = \"same\", strength "
+                             "= 1 } ...)")
+        return confidence
+
+    @property
+    def decision_classes(self) -> dict[str, str]:
+        """Decision label -> the class it asserts, or 'inconclusive'."""
+        return {label: g.target for label, g in self.decisions.items()}
+
+    @property
+    def graded(self) -> bool:
+        """The decision labels form a graded conclusion scale (labels carry a strength)."""
+        return any(g.strength is not None for g in self.decisions.values())
+
+    @property
+    def max_strength(self) -> int:
+        return max((g.strength or 0 for g in self.decisions.values()), default=0)
+
+    @property
+    def strength_probabilities(self) -> dict[int, float] | None:
+        """Strength -> the declared probability of being right, when every level has one."""
+        out = {g.strength: g.probability for g in self.decisions.values()
+               if g.strength is not None and g.probability is not None}
+        return out or None
+
+    @field_validator("provider")
+    @classmethod
+    def _authorised_when_final(cls, provider: Provider, info: ValidationInfo) -> Provider:
+        info_round = info.data.get("round")
+        if (provider.authorised_by is None and isinstance(info_round, RoundInfo)
+                and info_round.status == "final"):
+            raise ValueError(
+                'authorised_by = { name = "...", role = "..." } is required when [round] '
+                'status is "final": the name and function of who authorises the reports')
+        return provider
 
     @field_validator("criteria")
     @classmethod
@@ -342,3 +284,46 @@ class RoundConfig(_Table):
         if dupes:
             raise ValueError(f"criterion ids must be unique; repeated: {', '.join(dupes)}")
         return criteria
+
+    @field_validator("criteria")
+    @classmethod
+    def _strength_counts_exist(cls, criteria: tuple[Criterion, ...],
+                               info: ValidationInfo) -> tuple[Criterion, ...]:
+        decisions = info.data.get("decisions")
+        if not isinstance(decisions, dict):
+            return criteria
+        top = max((g.strength or 0 for g in decisions.values()), default=0)
+        for c in criteria:
+            suffix = c.metric.removeprefix(ERRORS_AT_STRENGTH)
+            strength = (top if c.metric == STRONGEST_ERRORS
+                        else int(suffix) if suffix != c.metric and suffix.isdigit() else 0)
+            if strength > top or (c.metric == STRONGEST_ERRORS and not top):
+                raise ValueError(f"criterion {c.id!r} names {c.metric!r}, but the conclusion "
+                                 "scale of [decisions] has " + (f"strengths 1 to {top} only"
+                                                                if top else "no strengths"))
+        return criteria
+
+    @model_validator(mode="after")
+    def _table_columns_distinct(self) -> RoundConfig:
+        for table in TABLE_COLUMNS:
+            self.columns_for(table)
+        return self
+
+    def columns_for(self, table: str) -> Columns:
+        """[columns] with the table's own ``[files.<table>] columns`` laid over it."""
+        spec = getattr(self.files, table)
+        if not isinstance(spec, TableFile) or not spec.columns:
+            return self.columns
+        mine = {key: name for key, name in self.columns.model_dump().items()
+                if key in TABLE_COLUMNS[table]}
+        names = {**mine, **spec.columns}
+        by_name: dict[str, list[str]] = {}
+        for key, name in names.items():
+            if not name.strip():
+                raise ValueError(f"files.{table}.columns: the column name for {key} is blank")
+            by_name.setdefault(name.strip(), []).append(key)
+        for name, shared in by_name.items():
+            if len(shared) > 1:
+                raise ValueError(f"files.{table}.columns: {' and '.join(shared)} both name the "
+                                 f"column {name!r}; each needs its own column")
+        return self.columns.model_copy(update=spec.columns)

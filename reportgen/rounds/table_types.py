@@ -42,8 +42,10 @@ class Table:
     ``row_numbers[i]`` is the 1-based row of ``rows[i]`` as the provider finds it: the spreadsheet
     row for xlsx; for csv the physical line on which the record starts (the same as the record
     number unless a quoted value spans lines). ``kinds[i][j]`` is one character per cell:
-    ``s`` text, ``n`` number, ``d`` date/time, ``b`` TRUE/FALSE, ``z`` empty, ``e`` error value
-    such as ``#N/A`` (whose text is the cell value). Csv cells are only ever ``s`` or ``z``.
+    ``s`` text, ``n`` number, ``p`` number formatted as a percentage (whose text is the
+    percentage shown: 0.8 formatted ``0%`` is ``80%``), ``d`` date/time, ``b`` TRUE/FALSE, ``z``
+    empty, ``e`` error value such as ``#N/A`` (whose text is the cell value). Csv cells are only
+    ever ``s`` or ``z``.
     """
 
     file: str

@@ -14,6 +14,7 @@ import numpy.typing as npt
 
 from reportgen.results.model import Metric
 from reportgen.rounds.model import ABSTAINED, SAID_NEGATIVE, SAID_POSITIVE, Round
+from reportgen.scoring.scale import rating_levels
 
 Array = npt.NDArray[np.float64]
 Counts = Mapping[str, npt.NDArray[np.int64]]
@@ -64,16 +65,7 @@ def masks(rnd: Round) -> Masks:
     said_pos, said_neg = dec == SAID_POSITIVE, dec == SAID_NEGATIVE
     correct = (said_pos & truth_pos) | (said_neg & ~truth_pos)
     wrong = (said_pos & ~truth_pos) | (said_neg & truth_pos)
-    scale = rnd.config.confidence
-    conf = rnd.confidence
-    if scale.kind == "ordinal":
-        levels = np.arange(scale.min, scale.max + 1, dtype=float)
-    else:
-        levels = np.unique(conf[np.isfinite(conf)])
-        if levels.size == 0:
-            levels = np.array([scale.max], dtype=float)
-    filled = np.where(np.isfinite(conf), conf, levels[0])
-    level = np.clip(np.searchsorted(levels, filled), 0, levels.size - 1)
+    level, levels = rating_levels(rnd)  # ordinal values, strengths or bins
     return Masks(said_pos, said_neg, dec == ABSTAINED, dec < 0, truth_pos, correct, wrong,
                  level, levels)
 
@@ -128,6 +120,8 @@ def counts(m: Masks, inconclusive_is_error: bool) -> dict[str, npt.NDArray[np.in
         "errors": m.wrong.sum(axis=1) + (m.abstain.sum(axis=1) if inconclusive_is_error else 0),
         "inconclusive": m.abstain.sum(axis=1),
         "missing": m.missing.sum(axis=1),
+        "missing_same": (m.missing & pos).sum(axis=1),
+        "missing_different": (m.missing & ~pos).sum(axis=1),
         "n_same": pos.sum(axis=1),
         "n_different": (~pos).sum(axis=1),
         "correct_same": (m.correct & pos).sum(axis=1),
@@ -138,3 +132,16 @@ def counts(m: Masks, inconclusive_is_error: bool) -> dict[str, npt.NDArray[np.in
         "inconclusive_different": (m.abstain & ~pos).sum(axis=1),
     }
     return {k: np.asarray(v, dtype=np.int64) for k, v in c.items()}
+
+
+def submission_counts(c: Counts, min_answered: float) -> dict[str, npt.NDArray[np.int64]]:
+    """Partial submissions: items and items answered, ``complete`` (1 when every item was
+    answered) and ``in_group`` (1 when at least ``min_answered`` of the items were answered, so
+    the participant counts in the group statistics)."""
+    n_items, answered = c["items"], c["answered"]
+    return {
+        "n_items": n_items.copy(),
+        "n_answered": answered.copy(),
+        "complete": (answered == n_items).astype(np.int64),
+        "in_group": (answered >= min_answered * n_items - 1e-9).astype(np.int64),
+    }

@@ -51,8 +51,10 @@ def _bound(rule: Criterion, values: Array) -> list[CriterionOutcome]:
     return out
 
 
-def _z(rule: Criterion, values: Array) -> tuple[list[CriterionOutcome], tuple[float, float]]:
-    finite = values[np.isfinite(values)]
+def _z(rule: Criterion, values: Array, in_group: npt.NDArray[np.bool_] | None = None
+       ) -> tuple[list[CriterionOutcome], tuple[float, float]]:
+    usable = np.isfinite(values) if in_group is None else np.isfinite(values) & in_group
+    finite = values[usable]
     est = algorithm_a(finite) if finite.size >= MIN_GROUP else None
     if est is None or not est.sd > 0:
         why = reasons.FEW_IN_GROUP if est is None else reasons.ROBUST_SD_ZERO
@@ -74,15 +76,18 @@ def _z(rule: Criterion, values: Array) -> tuple[list[CriterionOutcome], tuple[fl
     return out, (float(est.mean), float(est.sd))
 
 
-def judge(rules: Sequence[Criterion], values: Mapping[str, Array]) -> Verdicts:
-    """Every participant's outcome on every rule, the overall statement, and the group counts."""
+def judge(rules: Sequence[Criterion], values: Mapping[str, Array],
+          in_group: npt.NDArray[np.bool_] | None = None) -> Verdicts:
+    """Every participant's outcome on every rule, the overall statement, and the group counts.
+    A z rule's x* and s* come from the participants ``in_group`` only (all by default); every
+    participant is then placed against them."""
     n = len(next(iter(values.values())))
     per_rule: list[list[CriterionOutcome]] = []
     robust: dict[str, tuple[float, float]] = {}
     for rule in rules:
         vals = np.asarray(values[rule.metric], dtype=float)
         if rule.kind == "z":
-            outcomes, robust[rule.metric] = _z(rule, vals)
+            outcomes, robust[rule.metric] = _z(rule, vals, in_group)
         else:
             outcomes = _bound(rule, vals)
         per_rule.append(outcomes)

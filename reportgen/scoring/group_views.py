@@ -8,6 +8,7 @@ used instead and set against the accuracy of conclusive answers, and the view sa
 from __future__ import annotations
 
 import numpy as np
+import numpy.typing as npt
 
 from reportgen.metrics.ideal_observer import ideal_observer
 from reportgen.metrics.selfestimate import (
@@ -24,8 +25,11 @@ _D_GRID = tuple(round(0.25 * i, 2) for i in range(1, 17))  # 0.25 ... 4.0
 
 
 def self_estimate_view(rnd: Round, columns: dict[str, Column], tables: Tables,
-                       probabilities: Array | None) -> tuple[SelfEstimateView | None, str | None]:
-    """The quartile view, or None with the reason it cannot be drawn."""
+                       probabilities: Array | None,
+                       in_group: npt.NDArray[np.bool_] | None = None
+                       ) -> tuple[SelfEstimateView | None, str | None]:
+    """The quartile view over the participants in the group statistics, or None with the reason
+    it cannot be drawn."""
     seed = rnd.config.scoring.seed
     if rnd.estimates:
         estimate = np.array([rnd.estimates.get(code, np.nan) for code in rnd.participants])
@@ -40,16 +44,23 @@ def self_estimate_view(rnd: Round, columns: dict[str, Column], tables: Tables,
     else:
         return None, ("no estimates file, and the confidence scale is not declared mappable to "
                       "a probability of being right")
+    if in_group is not None:
+        estimate = np.where(in_group, estimate, np.nan)
     view = quartile_view(score, estimate, n_perm=N_PERMUTATIONS, seed=seed)
     if view.n < 8:
         return None, f"only {view.n} participants have both a score and an estimate (8 needed)"
     return SelfEstimateView(source, score_name, view), None
 
 
-def ability_groups(columns: dict[str, Column]) -> tuple[AbilityGroup, ...]:
-    return insight_by_ability(columns["accuracy"].value,
-                              columns["mean_confidence_correct"].value,
-                              columns["mean_confidence_wrong"].value)
+def ability_groups(columns: dict[str, Column],
+                   in_group: npt.NDArray[np.bool_] | None = None) -> tuple[AbilityGroup, ...]:
+    """Insight by ability quarter, over the participants in the group statistics."""
+    def kept(name: str) -> Array:
+        value = columns[name].value
+        return value if in_group is None else np.where(in_group, value, np.nan)
+
+    return insight_by_ability(kept("accuracy"), kept("mean_confidence_correct"),
+                              kept("mean_confidence_wrong"))
 
 
 def ideal_curve(n_levels: int) -> tuple[IdealPoint, ...]:

@@ -31,11 +31,19 @@ from reportgen.results.model import (
     RoundResults,
 )
 from reportgen.rounds.model import Round
-from reportgen.scoring.columns import Column, Tables, counts, masks, tables
+from reportgen.scoring.columns import Column, Tables, counts, masks, submission_counts, tables
 from reportgen.scoring.criteria import judge
 from reportgen.scoring.group_views import ability_groups, ideal_curve, self_estimate_view
 from reportgen.scoring.items import item_results
 from reportgen.scoring.metacognition import insight_columns
+from reportgen.scoring.raw_values import scale_columns
+from reportgen.scoring.scale import (
+    bin_forecasts,
+    binned,
+    conclusion_rows,
+    level_probabilities,
+    strength_counts,
+)
 from reportgen.settings import Settings
 
 __all__ = ["KNOWN_METRICS", "METRIC_NAMES", "score_round"]
@@ -52,15 +60,19 @@ def _rate(k: npt.ArrayLike, n: npt.ArrayLike, method: str, reason: str) -> Colum
 
 
 def rate_columns(c: Mapping[str, npt.NDArray[np.int64]], method: str) -> dict[str, Column]:
+    """Accuracy over all items (an unanswered item is not right); the error rates by class over
+    the answered items of the class (unanswered counts are kept beside them)."""
     conclusive = c["answered"] - c["inconclusive"]
     return {
         "accuracy": _rate(c["correct"], c["items"], method, "no items"),
+        "answered_accuracy": _rate(c["correct"], c["answered"], method, "no items answered"),
         "error_rate": _rate(c["errors"], c["items"], method, "no items"),
         "decisive_accuracy": _rate(c["correct"], conclusive, method, "no conclusive answers"),
-        "false_positive_rate": _rate(c["false_positives"], c["n_different"], method,
-                                     "no different-source items"),
-        "false_negative_rate": _rate(c["false_negatives"], c["n_same"], method,
-                                     "no same-source items"),
+        "false_positive_rate": _rate(c["false_positives"],
+                                     c["n_different"] - c["missing_different"], method,
+                                     "no different-source items answered"),
+        "false_negative_rate": _rate(c["false_negatives"], c["n_same"] - c["missing_same"],
+                                     method, "no same-source items answered"),
         "inconclusive_rate": _rate(c["inconclusive"], c["items"], method, "no items"),
     }
 
@@ -127,12 +139,7 @@ def confidence_columns(t: Tables, levels: Array, few_errors: int) -> dict[str, C
 
 def probabilities(rnd: Round, levels: Array) -> Array | None:
     """Confidence levels read as probabilities of being right, when calibration applies."""
-    scale = rnd.config.confidence
-    if not scale.calibration_applies:
-        return None
-    if scale.kind == "probability":
-        return levels / 100.0
-    return scale.map_low + (levels - scale.min) / (scale.max - scale.min) * (1 - scale.map_low)
+    return level_probabilities(rnd, levels)
 
 
 def calibration_columns(t: Tables, probs: Array) -> dict[str, Column]:
@@ -148,9 +155,12 @@ def calibration_columns(t: Tables, probs: Array) -> dict[str, Column]:
     }
 
 
-def _levels(t: Tables, p: int | None, levels: Array, probs: Array | None) -> tuple[LevelRow, ...]:
+def _levels(t: Tables, p: int | None, levels: Array, probs: Array | None,
+            group: npt.NDArray[np.bool_] | None = None) -> tuple[LevelRow, ...]:
     def row(arr: Array, k: int) -> int:
-        return int(arr[:, k].sum() if p is None else arr[p, k])
+        if p is None:
+            return int(arr[:, k].sum() if group is None else arr[group, k].sum())
+        return int(arr[p, k])
 
     return tuple(
         LevelRow(
@@ -182,6 +192,10 @@ def score_round(rnd: Round, settings: Settings) -> RoundResults:
     m = masks(rnd)
     t = tables(m)
     c = counts(m, cfg.scoring.inconclusive_is_error)
+    c.update(submission_counts(c, cfg.scoring.min_answered))
+    in_group = c["in_group"] == 1  # incomplete submissions stay out of the group statistics
+    by_strength = strength_counts(rnd, m.wrong, m.said_pos)  # graded scales only
+    c.update(by_strength)
     columns: dict[str, Column] = {}
     columns.update(rate_columns(c, cfg.scoring.interval))
     columns.update(sdt_columns(c, t))
@@ -189,14 +203,16 @@ def score_round(rnd: Round, settings: Settings) -> RoundResults:
     columns.update(insight_columns(t, m.levels, cfg.scoring, settings.report.bootstrap,
                                    rnd.participants))
     probs = probabilities(rnd, m.levels)
-    if probs is not None:
+    if probs is not None and not binned(rnd):
         columns.update(calibration_columns(t, probs))
+    columns.update(scale_columns(rnd, m, cfg.scoring.few_errors))  # raw values, graded scales
     columns = {name: columns[name] for name in METRIC_NAMES if name in columns}
 
     values = {name: col.value for name, col in columns.items()}
     values.update({name: arr.astype(float) for name, arr in c.items()})
-    verdicts = judge(cfg.criteria, values)
+    verdicts = judge(cfg.criteria, values, in_group)
 
+    conclusions, group_conclusions = conclusion_rows(rnd)
     participants = tuple(
         ParticipantResult(
             code=code,
@@ -208,23 +224,29 @@ def score_round(rnd: Round, settings: Settings) -> RoundResults:
             overall=verdicts.overall[p],
             rating_noise=tuple(int(x) for x in t.rating_noise[p]),
             rating_signal=tuple(int(x) for x in t.rating_signal[p]),
+            conclusions=conclusions[p],
         )
         for p, code in enumerate(rnd.participants)
     )
-    view, view_note = self_estimate_view(rnd, columns, t, probs)
+    view, view_note = self_estimate_view(
+        rnd, columns, t, bin_forecasts(rnd, m.correct | m.wrong, m.level, m.levels.size)
+        if binned(rnd) else probs, in_group)
     group = GroupResult(
         n_participants=rnd.n_participants,
-        distributions={name: _distribution(col.value) for name, col in columns.items()},
+        distributions={name: _distribution(col.value[in_group])
+                       for name, col in columns.items()},
         criteria_counts=verdicts.counts,
         overall_counts=verdicts.overall_counts,
         robust=verdicts.robust,
-        error_types={name: int(c[name].sum()) for name in (
+        error_types={name: int(c[name][in_group].sum()) for name in (
             "false_positives", "false_negatives", "inconclusive_same", "inconclusive_different",
-            "correct_same", "correct_different", "n_same", "n_different", "missing")},
-        levels=_levels(t, None, m.levels, probs),
+            "correct_same", "correct_different", "n_same", "n_different", "missing")}
+        | {name: int(arr[in_group].sum()) for name, arr in by_strength.items()},
+        levels=_levels(t, None, m.levels, probs, in_group),
         self_estimates=view,
         self_estimates_note=view_note,
-        ability_groups=ability_groups(columns),
+        ability_groups=ability_groups(columns, in_group),
         ideal_curve=ideal_curve(m.levels.size),
+        conclusions=group_conclusions,
     )
     return RoundResults(rnd, participants, item_results(rnd, m, columns["accuracy"].value), group)

@@ -18,6 +18,7 @@ key_statement = "Known from the capture sessions."
 
 [provider]
 name = "Test Provider"
+authorised_by = { name = "Wren Talbot", role = "Scheme coordinator" }
 
 [confidence]
 kind = "ordinal"

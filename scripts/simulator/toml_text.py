@@ -44,6 +44,7 @@ name = "Harbourline Proficiency Services"
 address = "12 Quay Lane, Port Ellery"
 contact = "rounds@harbourline.example"
 accent = "#5f6b73"
+authorised_by = {{ name = "Maren Oduya", role = "Technical manager, PT schemes" }}
 
 [classes]
 labels = ["same", "different"]

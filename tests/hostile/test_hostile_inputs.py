@@ -106,13 +106,15 @@ EXPECTED: dict[str, str] = {
     ),
     'estimate_lost_leading_zeros': (
         "estimates.csv, row 2, column 'participant': estimate for a participant with no "
-        "responses; did you mean '0042'? A spreadsheet program may have dropped the leading "
-        "zeros: format the column as Text (value '42')"
+        "responses; did you mean '0042' (as in responses.csv)? A spreadsheet program may have "
+        'dropped the leading zeros in estimates.csv: correct estimates.csv (format the column '
+        "as Text and type the code again) (value '42')"
     ),
     'item_lost_leading_zeros': (
         "responses.csv, row 16, column 'item': response to an item that is not in the key; did "
-        "you mean '0003'? A spreadsheet program may have dropped the leading zeros: format the "
-        "column as Text (value '3'); allowed: the item ids of the key"
+        "you mean '0003' (as in items.csv)? A spreadsheet program may have dropped the leading "
+        'zeros in responses.csv: correct responses.csv (format the column as Text and type the '
+        "code again) (value '3'); allowed: the item ids of the key"
     ),
     'missing_responses': (
         'responses: no responses.csv or responses.xlsx in the round folder'
@@ -132,8 +134,10 @@ EXPECTED: dict[str, str] = {
     ),
     'participant_number_lost_leading_zeros': (
         "responses.xlsx, sheet 'Responses', row 2, column 'participant': participant code is "
-        "not in the participants file participants.csv; did you mean '0042'? A spreadsheet "
-        "program may have dropped the leading zeros: format the column as Text (value '42')"
+        "not in the participants file participants.csv; did you mean '0042' (as in "
+        'participants.csv)? A spreadsheet program may have dropped the leading zeros in '
+        'responses.xlsx: correct responses.xlsx (format the column as Text and type the code '
+        "again) (value '42')"
     ),
     'responses_both_csv_and_xlsx': (
         'responses: both responses.csv and responses.xlsx are in the round folder; remove one, '
@@ -174,14 +178,19 @@ EXPECTED: dict[str, str] = {
     ),
     'toml_criterion_unknown_metric': (
         "round.toml, column 'criteria.1.metric': criterion 'C2' names an unknown metric (value "
-        "'acuracy'); allowed: accuracy, answered, auc, brier, brier_reliability, "
-        'brier_resolution, brier_uncertainty, conf_gap, correct, correct_different, '
-        'correct_same, criterion, d_prime, decisive_accuracy, ece, error_rate, errors, '
-        'expected_conf_gap, expected_type2_auroc, false_alarm_rate, false_negative_rate, '
-        'false_negatives, false_positive_rate, false_positives, gamma, hit_rate, inconclusive, '
-        'inconclusive_different, inconclusive_rate, inconclusive_same, items, m_ratio, '
-        'mean_confidence_correct, mean_confidence_inconclusive, mean_confidence_wrong, meta_d, '
-        'missing, n_different, n_same, overconfidence, type2_auroc'
+        "'acuracy'); allowed: accuracy, answered, answered_accuracy, auc, brier, "
+        'brier_reliability, brier_resolution, brier_uncertainty, complete, conf_gap, correct, '
+        'correct_different, correct_same, criterion, d_prime, decisive_accuracy, ece, '
+        'error_rate, errors, errors_at_strength_1, errors_at_strength_10, errors_at_strength_2,'
+        ' errors_at_strength_3, errors_at_strength_4, errors_at_strength_5, '
+        'errors_at_strength_6, errors_at_strength_7, errors_at_strength_8, '
+        'errors_at_strength_9, expected_conf_gap, expected_type2_auroc, false_alarm_rate, '
+        'false_negative_rate, false_negatives, false_positive_rate, false_positives, gamma, '
+        'hit_rate, in_group, inconclusive, inconclusive_different, inconclusive_rate, '
+        'inconclusive_same, items, m_ratio, mean_confidence_correct, '
+        'mean_confidence_inconclusive, mean_confidence_wrong, meta_d, missing, '
+        'missing_different, missing_same, n_answered, n_different, n_items, n_same, '
+        'overconfidence, strongest_errors, type2_auroc'
     ),
     'toml_dates_out_of_order': (
         "round.toml, column 'round': dates must satisfy opened <= closed <= issued"

@@ -57,5 +57,6 @@ def test_an_empty_folder_and_an_earlier_output_are_replaced(tmp_path: Path) -> N
     for _ in range(2):  # into an empty folder, then over its own output
         assert main(["score", str(tmp_path / "round"), "-o", str(tmp_path / "out"),
                      "--quiet"]) == 0
-    assert sorted(p.name for p in (tmp_path / "out").iterdir()) == [
-        "manifest.json", "results.json", "results.xlsx"]
+    assert sorted(p.name for p in (tmp_path / "out").iterdir()) == ["manifest.json", "provider"]
+    assert sorted(p.name for p in (tmp_path / "out" / "provider").iterdir()) == [
+        "results.json", "results.xlsx"]

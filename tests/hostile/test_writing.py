@@ -10,6 +10,7 @@ organisations and item attributes are markup, formulas, path parts and reserved 
 
 from __future__ import annotations
 
+import csv
 import io
 import json
 from pathlib import Path
@@ -46,7 +47,23 @@ def _manifest(out: Path) -> dict[str, str]:
 
 def test_output_is_complete_and_verifies(issued: Path) -> None:
     assert verify(issued).intact
-    assert not list(issued.rglob("*.csv"))  # no csv is written, so none needs neutralising
+    assert [p.relative_to(issued).as_posix() for p in issued.rglob("*.csv")] == [
+        "provider/distribution.csv"]
+
+
+def test_the_distribution_list_neutralises_formulas(issued: Path) -> None:
+    """Text fields starting = + - @ tab or CR get a leading apostrophe (OWASP ASVS 5.0 §1.2.10,
+    CWE-1236); everything else is written as it is."""
+    data = (issued / "provider" / "distribution.csv").read_bytes().decode("utf-8")
+    rows = list(csv.reader(io.StringIO(data, newline="")))
+    assert rows[0] == ["participant", "name", "email", "file", "sha256"]
+    seen = {(r[0], r[1]) for r in rows[1:]}
+    for code, name, _ in HOSTILE_PEOPLE:
+        shown = (code, name)
+        safe = tuple("'" + v if v.startswith(("=", "+", "-", "@", "\t", "\r")) else v
+                     for v in shown)
+        assert safe in seen, shown
+    assert all(not r[1].startswith(("=", "+", "-", "@")) for r in rows[1:])
 
 
 def test_file_names_stay_inside_certificates_and_are_distinct(issued: Path) -> None:
@@ -63,8 +80,10 @@ def test_file_names_stay_inside_certificates_and_are_distinct(issued: Path) -> N
         assert len(path.name) <= 64 + len(".html")
         assert path.stem.split(".")[0].upper() not in {"CON", "PRN", "AUX", "NUL"}
     assert [p.name for p in issued.iterdir() if p.name not in {
-        "certificates", "results.json", "results.xlsx", "manifest.json", "appendix.html",
-        "appendix.pdf", "archive.sqlite"}] == []
+        "certificates", "provider", "manifest.json", "appendix.html", "appendix.pdf",
+        "archive.sqlite"}] == []
+    assert sorted(p.name for p in (issued / "provider").iterdir()) == [
+        "distribution.csv", "key-audit.html", "key-audit.pdf", "results.json", "results.xlsx"]
 
 
 def test_codes_differing_only_by_case_get_different_names() -> None:
@@ -91,7 +110,7 @@ def test_markup_in_a_name_is_text_in_html_and_pdf(issued: Path) -> None:
 
 
 def test_formula_like_text_is_stored_as_text(issued: Path) -> None:
-    book = openpyxl.load_workbook(issued / "results.xlsx")
+    book = openpyxl.load_workbook(issued / "provider" / "results.xlsx")
     sheet = book["Participants"]
     header = [c.value for c in sheet[1]]
     rows = {row[0].value: row for row in sheet.iter_rows(min_row=2)}
@@ -109,6 +128,9 @@ def test_formula_like_text_is_stored_as_text(issued: Path) -> None:
     cells = [row[quality] for row in items.iter_rows(min_row=2)]
     assert len(cells) == len(HOSTILE_ATTRIBUTES)
     for cell, expected in zip(cells, HOSTILE_ATTRIBUTES, strict=True):
+        if expected == "-2":  # a plain number in the key is stored as a number, never a formula
+            assert (cell.data_type, cell.value) == ("n", -2)
+            continue
         assert cell.data_type == "s", expected
         if "\r" not in expected:
             assert cell.value == expected
@@ -116,7 +138,7 @@ def test_formula_like_text_is_stored_as_text(issued: Path) -> None:
 
 def test_carriage_return_survives_the_workbook(issued: Path) -> None:
     """Read as Excel reads it (calamine, like Excel, decodes _xHHHH_ escapes)."""
-    data = (issued / "results.xlsx").read_bytes()
+    data = (issued / "provider" / "results.xlsx").read_bytes()
     book = python_calamine.CalamineWorkbook.from_filelike(io.BytesIO(data))
     texts = {v for row in book.get_sheet_by_name("Participants").to_python() for v in row
              if isinstance(v, str)}

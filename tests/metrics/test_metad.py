@@ -400,3 +400,76 @@ def test_ideal_observer_uses_the_participants_rating_use() -> None:
     )
     assert ideal.type2_auroc == pytest.approx(0.737016, abs=0.03)
     assert ideal.conf_gap == pytest.approx(0.980478, abs=0.15)  # REFERENCES: gap 0.980478
+
+
+# ------------------------------------------------------------- profile-likelihood intervals
+
+
+def _profile_at(noise: list[int], signal: list[int], meta_d: float) -> float:
+    """Profile log-likelihood at a fixed meta-d′ by brute force: the reference module's own
+    likelihood (scipy.stats.norm.cdf, plain differences) maximised over the criteria with
+    scipy.optimize Nelder–Mead, no code shared with the fast fit."""
+    from scipy import optimize
+
+    from reportgen.metrics.metad_reference import _neg_log_lik, _type1
+
+    k = len(noise) // 2
+    n = np.asarray(noise, float) + 1 / (2 * k)
+    s = np.asarray(signal, float) + 1 / (2 * k)
+    d1, c1 = _type1(n, s)
+    start = np.r_[np.linspace(-2, -0.2, k - 1), np.linspace(0.2, 2, k - 1)]
+    best = min(
+        (optimize.minimize(lambda x: _neg_log_lik(np.r_[meta_d, x], n, s, d1, c1), x0,
+                           method="Nelder-Mead",
+                           options={"xatol": 1e-10, "fatol": 1e-12, "maxiter": 40000})
+         for x0 in (start, 0.5 * start, 1.5 * start)),
+        key=lambda r: r.fun,
+    )
+    return -float(best.fun)
+
+
+@pytest.mark.parametrize(("noise", "signal"), [(A_NOISE, A_SIGNAL), (B_NOISE, B_SIGNAL)])
+def test_profile_interval_ends_drop_by_half_the_chi_square_quantile(
+    noise: list[int], signal: list[int]
+) -> None:
+    # Wilks (1938): the ends are where the profile log-likelihood is χ²₁(0.95)/2 below the
+    # maximum; χ² quantile from scipy.stats.chi2, profile by brute force (scipy Nelder–Mead).
+    point = fit_meta_d(noise, signal)
+    (interval,) = metad.meta_d_profile_intervals([noise], [signal], [point], level=0.95)
+    assert point.log_likelihood is not None and point.meta_d is not None
+    assert interval.meta_d_low is not None and interval.meta_d_high is not None
+    assert interval.meta_d_low < point.meta_d < interval.meta_d_high
+    drop = stats.chi2.ppf(0.95, 1) / 2
+    for end in (interval.meta_d_low, interval.meta_d_high):
+        assert point.log_likelihood - _profile_at(noise, signal, end) == pytest.approx(
+            drop, abs=1e-4)
+    assert interval.method == "profile"
+
+
+def test_profile_m_ratio_interval_contains_the_meta_d_ends_over_d_prime() -> None:
+    # The M-ratio interval is the meta-d′ interval over d′ widened by d′'s own uncertainty
+    # (delta method), so it contains [low / d′, high / d′].
+    point = fit_meta_d(A_NOISE, A_SIGNAL)
+    (ci,) = metad.meta_d_profile_intervals([A_NOISE], [A_SIGNAL], [point])
+    assert point.d_prime is not None and point.m_ratio is not None
+    assert ci.meta_d_low is not None and ci.meta_d_high is not None
+    assert ci.m_ratio_low is not None and ci.m_ratio_high is not None
+    assert ci.m_ratio_low < ci.meta_d_low / point.d_prime
+    assert ci.m_ratio_high > ci.meta_d_high / point.d_prime
+
+
+def test_batched_bootstrap_equals_one_table_at_a_time() -> None:
+    # Each table's replicates come from its own seed: batching changes nothing.
+    rng = np.random.default_rng(3)
+    noise, signal = _simulate(rng, 4, 60, 1.5, 4, conf_noise=0.5)
+    fits = fit_meta_d_many(noise, signal)
+    together = metad.meta_d_intervals(noise, signal, fits, [11, 12, 13, 14], n_boot=60)
+    for i in range(4):
+        alone = meta_d_interval(noise[i], signal[i], n_boot=60, seed=11 + i, point=fits[i])
+        assert together[i] == alone
+
+
+def test_profile_interval_of_degenerate_table_is_empty() -> None:
+    point = fit_meta_d([9, 3, 0, 0], [0, 0, 4, 8])
+    (ci,) = metad.meta_d_profile_intervals([[9, 3, 0, 0]], [[0, 0, 4, 8]], [point])
+    assert (ci.meta_d_low, ci.meta_d_high, ci.m_ratio_low, ci.m_ratio_high) == (None,) * 4

@@ -19,11 +19,11 @@ from reportgen.settings import Settings
 GOLDEN_DIR = Path(__file__).resolve().parents[1] / "golden"
 CERTIFICATE = GOLDEN_DIR / "certificate.html"
 APPENDIX = GOLDEN_DIR / "appendix.html"
-_DATA_URI = re.compile(r"data:(image/[a-z+.-]+);base64,[A-Za-z0-9+/=]+")
+_DATA_URI = re.compile(r"data:((?:image|font)/[a-z+.-]+);base64,[A-Za-z0-9+/=]+")
 
 
 def normalise(html: str) -> str:
-    """Chart and logo images replaced by ``data:<type>;base64,IMAGE``."""
+    """Chart and logo images and the embedded font replaced by ``data:<type>;base64,IMAGE``."""
     return _DATA_URI.sub(r"data:\1;base64,IMAGE", html)
 
 

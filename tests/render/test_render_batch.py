@@ -12,7 +12,13 @@ from hypothesis import given
 from hypothesis import strategies as st
 
 from reportgen.errors import BuildError
-from reportgen.render.batch import MAX_STEM, output_names, render_documents, safe_stems
+from reportgen.render.batch import (
+    MAX_STEM,
+    RenderWorkers,
+    output_names,
+    render_documents,
+    safe_stems,
+)
 from reportgen.settings import Settings
 
 from .render_fixtures import build_results
@@ -74,6 +80,19 @@ def test_batch_in_two_processes_matches_one() -> None:
     assert set(serial) == expected | {"appendix.html", "appendix.pdf"}
     assert serial == parallel  # byte-identical across processes
     assert seen == [(0, 3), (1, 3), (2, 3), (3, 3)]
+
+
+def test_workers_started_before_scoring_give_the_same_bytes() -> None:
+    # pipeline.issue starts the workers first (they import while the round is scored) and
+    # hands them to render_documents; two rounds in a row reuse them (the job file changes).
+    results = build_results(n_participants=2, n_items=8)
+    other = build_results(n_participants=3, n_items=6)
+    settings = Settings()
+    with RenderWorkers(1) as workers:
+        early = dict(render_documents(results, settings, jobs=2, workers=workers))
+        again = dict(render_documents(other, settings, jobs=2, workers=workers))
+    assert early == dict(render_documents(results, settings, jobs=1))
+    assert again == dict(render_documents(other, settings, jobs=1))
 
 
 def test_a_safe_code_shaped_like_a_hashed_stem_still_gets_its_own_name() -> None:

@@ -3,12 +3,13 @@
 from __future__ import annotations
 
 import datetime as dt
+import re
 from pathlib import Path
 
 import pytest
 
 from reportgen.errors import InputError
-from reportgen.render import charts, wording
+from reportgen.render import charts, html_parts, wording
 from reportgen.render.appendix import appendix_context, render_appendix
 from reportgen.render.certificate import render_certificate
 from reportgen.render.context import logo_path, report_id
@@ -17,7 +18,7 @@ from reportgen.render.wording import statements
 from reportgen.results.model import Metric, ParticipantResult, PreviousRound, RoundResults
 from reportgen.settings import Settings
 
-from .helpers import contains_token, html_text, norm
+from .helpers import contains_token, html_text, norm, pdf_text
 from .render_fixtures import HOSTILE_NAME, build_results, round_config
 
 
@@ -158,3 +159,61 @@ def test_a_logo_outside_the_round_folder_is_refused(tmp_path: Path, settings: Se
     branded = build_results(n_participants=3, n_items=6, config=config, folder=tmp_path / "r")
     with pytest.raises(InputError):
         render_certificate(branded, branded.participants[0], settings)
+
+
+# ---------------------------------------------------------------------------------------------
+# Readable wherever it is opened (issue 13) and small things a new provider tripped over (15)
+
+
+def test_html_is_built_for_phones_screen_readers_and_print(certificate_html: str,
+                                                          appendix_html: str) -> None:
+    for document in (certificate_html, appendix_html):
+        assert '<meta name="viewport" content="width=device-width, initial-scale=1">' in document
+        assert document.count("<main>") == 1 and "<header class=\"masthead\">" in document
+        assert "<footer" in document
+        tables = re.findall(r"<table[^>]*>", document)
+        assert tables
+        assert len(re.findall(r"<caption", document)) == len(tables)
+        # every table scrolls on its own on a narrow screen instead of squeezing its cells
+        assert document.count('class="table-scroll"') == len(tables)
+        for head in re.findall(r"<thead>.*?</thead>", document, flags=re.S):
+            assert "<th>" not in head and "<th class" not in head
+        assert not re.search(r"<th[^>]*>\s*</th>", document)  # no empty header cell
+        assert "table-layout: auto" in document and "@media print" in document
+
+
+def test_every_chart_has_its_numbers_beside_it(certificate_html: str) -> None:
+    charts_shown = certificate_html.count('<img class="chart"')
+    assert charts_shown >= 3
+    assert certificate_html.count('<details class="chart-data">') == charts_shown
+
+
+def test_the_shipped_font_is_embedded(certificate_html: str) -> None:
+    assert '@font-face { font-family: "Reportgen Sans Web"' in certificate_html
+    assert "data:font/woff;base64," in certificate_html
+    assert "url(http" not in certificate_html and "url(file" not in certificate_html
+
+
+def test_contact_e_mail_is_a_mailto_link(certificate_html: str) -> None:
+    assert '<a href="mailto:rounds@harbourline.example">rounds@harbourline.example</a>' in (
+        certificate_html)
+    parts = html_parts.contact_parts('Ann Lee <ann@lab.example>, "x@y.example"; tel. 1')
+    assert [p["email"] for p in parts if p["email"]] == ["ann@lab.example", "x@y.example"]
+    assert "".join(p["text"] for p in parts) == 'Ann Lee <ann@lab.example>, "x@y.example"; tel. 1'
+
+
+def test_running_header_text_cannot_break_out_of_the_stylesheet(settings: Settings) -> None:
+    hostile = 'Lab "A" \\ </style><script>x</script>'
+    results = build_results(config=round_config(name=hostile))
+    html = render_certificate(results, results.participants[0], settings)
+    style = html[html.index("<style>"):html.index("</style>")]
+    assert "<script" not in style and "</" not in style
+    assert 'content: "Lab \\"A\\" \\\\ \\3c /style>\\3c script>x\\3c /script>";' in style
+
+
+def test_end_of_report_extracts_as_plain_text(results: RoundResults, hostile: ParticipantResult,
+                                              certificate_html: str, certificate_pdf: bytes
+                                              ) -> None:
+    assert "letter-spacing" not in certificate_html
+    ident = report_id(results.round.config.round.id, hostile.code)
+    assert f"End of report {ident}" in pdf_text(certificate_pdf)

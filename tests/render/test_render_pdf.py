@@ -105,7 +105,8 @@ def test_fetcher_serves_data_and_the_logo_only(tmp_path: Path) -> None:
 def test_a_refused_resource_stops_the_build(tmp_path: Path) -> None:
     secret = tmp_path / "secret.png"
     secret.write_bytes(PNG_1PX)
-    html = f'<html><body><img src="{secret.as_uri()}"><p>x</p></body></html>'
+    html = (f'<html lang="en"><body><img src="{secret.as_uri()}" alt="a grey dot"><p>x</p>'
+            '</body></html>')
     with pytest.raises(BuildError, match="refused"):
         html_to_pdf(html, issued=dt.date(2026, 5, 15))
     # The same file, allowed as the logo, renders.

@@ -6,9 +6,11 @@ import datetime as dt
 
 import pytest
 
+from reportgen.metrics.robust import classify_z
 from reportgen.render import wording
-from reportgen.render.wording import readings
-from reportgen.results.model import Metric, RoundResults
+from reportgen.render.wording import readings, statements
+from reportgen.results.model import CriterionOutcome, Metric, RoundResults
+from reportgen.rounds.schema import Criterion
 
 from .render_fixtures import round_config
 
@@ -126,3 +128,42 @@ def test_a_negative_m_ratio_is_not_read_as_a_negative_share() -> None:
     text = readings.read_m_ratio(Metric(-0.09, -1.5, 1.3))
     assert "\u22129" not in text and "none of the information" in text
     assert "about 65\u00a0%" in readings.read_m_ratio(Metric(0.65, 0.2, 1.1))
+
+
+# ---------------------------------------------------------------------------------------------
+# z-scores are printed so that the printed value falls in the class beside it (issue 13)
+
+
+@pytest.mark.parametrize(("z", "expected"), [
+    (0.4412, "+0.44"),
+    (-1.994, "\u22121.99"),
+    (-1.9951, "\u22122.00"),  # satisfactory, and so is |z| = 2.00
+    (-2.0, "\u22122.00"),  # on the limit: satisfactory, |z| ≤ 2
+    (-2.004, "\u22122.004"),  # questionable: never "−2.00"
+    (-2.0000004, "\u22122.0000004"),
+    (2.0049, "+2.005"),
+    (-2.9989, "\u22122.999"),  # questionable: never "−3.00"
+    (-2.99999, "\u22122.99999"),
+    (-3.0, "\u22123.00"),  # on the limit: unsatisfactory, |z| ≥ 3
+    (-3.004, "\u22123.00"),  # unsatisfactory either way
+    (3.0000000001, "+3.00"),
+])
+def test_z_is_shown_with_the_digits_its_class_needs(z: float, expected: str) -> None:
+    shown = statements.fmt_z(z)
+    assert shown == expected
+    value = float(shown.replace("\u2212", "-"))
+    assert classify_z(value) == classify_z(round(z, 9))
+
+
+def test_criterion_detail_never_contradicts_the_outcome() -> None:
+    for z in (-2.9989, -2.0001, -1.99999, 2.9999999, -3.0):
+        shown = statements.fmt_z(z).replace("\u2212", "-")
+        assert classify_z(float(shown)) == classify_z(z)
+
+
+def test_criterion_detail_prints_z_with_the_digits_its_class_needs() -> None:
+    rule = Criterion(id="C3", label="z", metric="accuracy", kind="z", worse="low")
+    outcome = CriterionOutcome(id="C3", label="z", metric="accuracy", value=0.4,
+                               outcome="questionable", z=-2.9989, reason=None)
+    detail = statements.criterion_detail(outcome, rule, {"accuracy": (0.7, 0.1)})
+    assert detail.startswith("z = -2.999 ")

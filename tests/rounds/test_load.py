@@ -27,8 +27,10 @@ CASES: dict[str, tuple[dict[str, str | None], str]] = {
     ),
     "missing column": (
         {"responses__csv": _swap(responses_csv(), "confidence", "conf")},
-        "error: responses.csv, row 1: required column 'confidence' is missing; allowed: columns "
-        "present: participant, item, decision, conf",
+        "error: responses.csv, row 1: required column 'confidence' is missing, so the "
+        "responses cannot be read; if it has another header, name that header in round.toml: "
+        "[files.responses.columns] confidence = \"…\"; allowed: columns present: participant, "
+        "item, decision, conf",
     ),
     "response to unknown item": (
         {"responses__csv": _swap(responses_csv(), "A7,I2,", "A7,I9,")},
@@ -48,8 +50,10 @@ CASES: dict[str, tuple[dict[str, str | None], str]] = {
     ),
     "duplicate participant and item": (
         {"responses__csv": responses_csv() + "B3,I4,same,2\n"},
-        "error: responses.csv, row 26, column 'item': second response of participant 'B3' to "
-        "item 'I4' (first at row 17) (value 'I4')",
+        "error: responses.csv, row 26, column 'participant': participant 'B3' answered 1 "
+        "item(s) more than once: row 26 repeats the answers of row 17; delete the rows that "
+        "should not count, or set [files] duplicates = \"latest\" in round.toml to keep each "
+        "participant's latest submission (by its 'submitted' column) (value 'B3')",
     ),
     "undeclared decision label": (
         {"responses__csv": _swap(responses_csv(), "B3,I2,same,3", "B3,I2,identical,3")},

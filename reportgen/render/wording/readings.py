@@ -45,6 +45,8 @@ def not_estimable(m: Metric) -> str:
 
 def _scale_unit(cfg: RoundConfig) -> str:
     scale = cfg.confidence
+    if scale.source == "strength":  # a graded scale without a confidence column
+        return f"strength levels on the 1\u2013{cfg.max_strength} scale"
     if scale.kind == "probability":
         return "percentage points"
     return f"points on the {scale.min:g}\u2013{scale.max:g} scale"
@@ -231,6 +233,8 @@ def read_overconfidence(m: Metric, cfg: RoundConfig) -> str:
 
 def _probability_convention(cfg: RoundConfig) -> str:
     scale = cfg.confidence
+    if scale.source == "strength":
+        return " (each strength read as the probability of being right declared for it)"
     if scale.kind == "probability":
         return ""
     return (f" (confidence read as probability by the convention {scale.min:g} \u2192 "

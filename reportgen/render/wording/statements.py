@@ -5,8 +5,9 @@ from __future__ import annotations
 
 from collections.abc import Mapping
 
+from reportgen.metrics.robust import classify_z
 from reportgen.metrics.selfestimate import SIGNIFICANCE, QuartileRow, QuartileView
-from reportgen.render.wording.numbers import fmt_p
+from reportgen.render.wording.numbers import fmt_p, fmt_signed
 from reportgen.results import reasons
 from reportgen.results.model import CriterionOutcome, ItemResult, ParticipantResult
 from reportgen.rounds.schema import Criterion
@@ -32,6 +33,24 @@ def _g4(x: float) -> str:
     return f"{x:.4g}"
 
 
+def z_digits(z: float) -> int:
+    """How many decimals z needs so that the printed value falls in the same ISO 13528 class
+    as z itself: two, or more near a limit (z = −2.9989 prints −2.999, never −3.00 beside
+    "questionable"). The class of z is taken on z rounded to 9 decimals, as scoring takes it,
+    so 9 decimals always agree."""
+    target = str(classify_z(round(z, 9)))
+    for digits in range(2, 9):
+        if str(classify_z(float(f"{z:.{digits}f}"))) == target:
+            return digits
+    return 9
+
+
+def fmt_z(z: float | None) -> str:
+    """A z-score for reports: signed, with a true minus sign, as many decimals as
+    :func:`z_digits` asks for (``+0.44``, ``−2.999``)."""
+    return fmt_signed(z, 2 if z is None else z_digits(z))
+
+
 def criterion_detail(co: CriterionOutcome, rule: Criterion | None,
                      robust: Mapping[str, tuple[float, float]]) -> str:
     """How an outcome came about: the value against the requirement, the z-score with the
@@ -42,7 +61,7 @@ def criterion_detail(co: CriterionOutcome, rule: Criterion | None,
         return co.reason or reasons.NOT_ESTIMABLE
     if co.z is not None:
         x_star, s_star = robust[co.metric]
-        return (f"z = {co.z:+.2f} (x* = {_g4(x_star)}, s* = {_g4(s_star)}, "
+        return (f"z = {co.z:+.{z_digits(co.z)}f} (x* = {_g4(x_star)}, s* = {_g4(s_star)}, "
                 "ISO 13528 Algorithm A)")
     needs = []
     if rule is not None and rule.at_least is not None:

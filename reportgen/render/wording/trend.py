@@ -10,7 +10,8 @@ from collections.abc import Callable
 
 from reportgen.archive.trend import ALPHA, ChangeTest, PooledInsight, Trend
 from reportgen.catalogue import RATES
-from reportgen.render.wording.numbers import fmt_number, fmt_p, fmt_percent, fmt_signed
+from reportgen.render.wording.numbers import fmt_number, fmt_p, fmt_percent
+from reportgen.render.wording.statements import fmt_z
 
 ONE_ROUND_NOTE = ("There is only one round of yours in the archive, so a change cannot be "
                   "assessed yet.")
@@ -112,7 +113,7 @@ def summary(trend: Trend) -> tuple[str, ...]:
     s = last.standing
     acc = fmt_percent(last.metrics["accuracy"].value)
     if s.z is not None:
-        out.append(f"In {last.round_id} your accuracy was {acc}, z = {fmt_signed(s.z)} against "
+        out.append(f"In {last.round_id} your accuracy was {acc}, z = {fmt_z(s.z)} against "
                    f"the group: {s.classification}.")
     else:
         out.append(f"In {last.round_id} your accuracy was {acc}; standing in the group not "

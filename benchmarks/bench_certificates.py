@@ -1,0 +1,111 @@
+"""Certificates end to end against WeasyPrint's own floor (issue 14 target: ratio ≤ 1.25).
+
+    .venv/bin/python benchmarks/bench_certificates.py [--participants 20] [--round FOLDER]
+
+For each of ``--participants`` certificates of the newest sample round, in one process, CPU time:
+
+* **end to end**: certificate HTML (context, wording, the four charts: Altair spec, vl-convert,
+  opaque PNG) and its PDF by ``html_to_pdf``, as ``issue`` renders it;
+* **text-only floor**: WeasyPrint alone on the same HTML with every chart replaced by an empty
+  box of the chart's size (same layout, same pages), with the same shared fonts and CSS.
+
+Prints both totals, the ratio, and where the end-to-end time goes (charts / HTML / PDF). A
+benchmark, not a test; a warm-up certificate is rendered first (engine start-up is excluded).
+"""
+
+from __future__ import annotations
+
+import argparse
+import re
+import sys
+import time
+from collections.abc import Callable
+from pathlib import Path
+
+ROOT = Path(__file__).resolve().parents[1]
+sys.path.insert(0, str(ROOT))
+
+import weasyprint  # noqa: E402
+
+from reportgen.pipeline import newest_sample_round, score_folder  # noqa: E402
+from reportgen.render import charts  # noqa: E402
+from reportgen.render.certificate import render_certificate  # noqa: E402
+from reportgen.render.pdf import _resources, html_to_pdf  # noqa: E402
+from reportgen.settings import Settings  # noqa: E402
+
+IMG = re.compile(r'<img class="chart" src="[^"]+" alt="[^"]*" width="(\d+)" height="(\d+)"[^>]*>')
+
+
+def text_only(html: str) -> str:
+    return IMG.sub(lambda m: f'<div style="width: {m[1]}px; height: {m[2]}px"></div>', html)
+
+
+def floor_pdf(html: str) -> bytes:
+    res = _resources()
+    doc = weasyprint.HTML(string=html).render(font_config=res.font_config, stylesheets=[res.css])
+    return bytes(doc.write_pdf())
+
+
+class ChartClock:
+    """CPU time spent inside ``charts.image`` (spec, vl-convert and PNG) while installed."""
+
+    def __init__(self) -> None:
+        self.seconds = 0.0
+        self.original: Callable[..., charts.Image] = charts.image
+
+    def __enter__(self) -> ChartClock:
+        def timed(chart: object) -> charts.Image:
+            start = time.process_time()
+            try:
+                return self.original(chart)
+            finally:
+                self.seconds += time.process_time() - start
+
+        charts.image = timed
+        return self
+
+    def __exit__(self, *exc: object) -> None:
+        charts.image = self.original
+
+
+def main() -> None:
+    ap = argparse.ArgumentParser(description=__doc__)
+    ap.add_argument("--participants", type=int, default=20)
+    ap.add_argument("--round", type=Path, default=None)
+    args = ap.parse_args()
+    folder = args.round or newest_sample_round()
+    results = score_folder(folder)
+    settings = Settings()
+    issued = results.round.config.round.issued
+    people = results.participants[: args.participants]
+    floor_pdf(text_only(render_certificate(results, people[0], settings)))  # warm-up
+    html_to_pdf(render_certificate(results, people[0], settings), issued=issued)
+
+    plain = [text_only(render_certificate(results, p, settings)) for p in people]
+    start = time.process_time()
+    for html in plain:
+        floor_pdf(html)
+    floor = time.process_time() - start
+
+    html_cpu = pdf_cpu = 0.0
+    with ChartClock() as clock:
+        for p in people:
+            t0 = time.process_time()
+            html = render_certificate(results, p, settings)
+            t1 = time.process_time()
+            html_to_pdf(html, issued=issued)
+            t2 = time.process_time()
+            html_cpu += t1 - t0
+            pdf_cpu += t2 - t1
+    total = html_cpu + pdf_cpu
+    n = len(people)
+    print(f"round {folder.name}: {n} certificates, one process, CPU time")
+    print(f"text-only floor (WeasyPrint, charts as empty boxes): {1000 * floor / n:6.0f} ms each")
+    print(f"end to end (HTML with charts + PDF):                  {1000 * total / n:6.0f} ms each")
+    print(f"   charts {1000 * clock.seconds / n:5.0f} ms, rest of the HTML "
+          f"{1000 * (html_cpu - clock.seconds) / n:5.0f} ms, PDF {1000 * pdf_cpu / n:5.0f} ms")
+    print(f"ratio end to end / floor: {total / floor:.2f} (target <= 1.25)")
+
+
+if __name__ == "__main__":
+    main()
