@@ -21,6 +21,7 @@ from reportgen.render.context import (
     rule_text,
 )
 from reportgen.render.identity import Identity, Signed, identity_context
+from reportgen.render.wording import breakdown as breakdown_words
 from reportgen.render.wording import scale as scale_words
 from reportgen.render.wording import statements
 from reportgen.results.model import (
@@ -251,6 +252,7 @@ def appendix_context(results: RoundResults, settings: Settings) -> dict[str, Any
         "distributions": _distribution_rows(results, ctx["small_group"]),
         "error_types": _error_type_rows(results),
         "conclusions": scale_words.conclusion_table(results.group.conclusions, cfg),
+        "breakdowns": breakdown_words.group_tables(results.breakdowns),
         "criteria_counts": _criteria_count_rows(results),
         "overall_counts": sorted(results.group.overall_counts.items()),
         "calibration": _calibration_rows(results),

@@ -28,6 +28,7 @@ from reportgen.render.identity import Identity, Signed, identity_context
 from reportgen.render.pdf import PdfAttachment
 from reportgen.render.results_json import participant_results_json
 from reportgen.render.submission import submission_context
+from reportgen.render.wording import breakdown as breakdown_words
 from reportgen.render.wording import scale as scale_words
 from reportgen.render.wording import statements
 from reportgen.results.model import (
@@ -239,6 +240,7 @@ def certificate_context(results: RoundResults, participant: ParticipantResult,
         },
         "answer_table": _answer_table(results, participant.row),
         "conclusions": scale_words.conclusion_table(participant.conclusions, cfg),
+        "breakdowns": breakdown_words.own_tables(results.breakdowns, participant.code),
         "item_pairs": _two_columns(_item_rows(results, participant.row, settings)),
         "charts": _certificate_charts(results, participant, accuracies, ctx),
         "chart_tables": _chart_tables(results, participant, accuracies, ctx),

@@ -159,12 +159,47 @@ class GroupResult:
     conclusions: tuple[ConclusionRow, ...] = ()  # graded scales: pooled over the group
 
 
+@dataclass(frozen=True)
+class LevelFigures:
+    """Accuracy, error rates by class and the type-2 ROC area on one attribute level's items."""
+
+    accuracy: Metric
+    false_positive_rate: Metric
+    false_negative_rate: Metric
+    type2_auroc: Metric
+
+
+@dataclass(frozen=True)
+class AttributeLevel:
+    """One level of an item attribute (or the merged small levels): its items, the group's
+    pooled figures (participants in the group only) and every participant's own, by code."""
+
+    name: str
+    n_items: int
+    group: LevelFigures
+    participants: Mapping[str, LevelFigures]
+    merged: tuple[str, ...] = ()  # the small levels this one merges, when it is merged
+
+
+@dataclass(frozen=True)
+class AttributeBreakdown:
+    """The break-down by one ``[attributes] breakdown`` column. Levels with fewer than
+    ``min_items`` items are merged into one level, or withheld when even merged they are
+    too few (``withheld`` names them)."""
+
+    attribute: str
+    levels: tuple[AttributeLevel, ...]
+    min_items: int
+    withheld: tuple[str, ...] = ()
+
+
 @dataclass(frozen=True, eq=False)
 class RoundResults:
     round: Round
     participants: tuple[ParticipantResult, ...]
     items: tuple[ItemResult, ...]
     group: GroupResult
+    breakdowns: tuple[AttributeBreakdown, ...] = ()
 
 
 @dataclass(frozen=True)

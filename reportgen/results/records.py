@@ -19,7 +19,14 @@ from functools import cache
 from importlib import resources
 from typing import Any
 
-from reportgen.results.model import ItemResult, Metric, ParticipantResult, RoundResults
+from reportgen.results.model import (
+    AttributeBreakdown,
+    ItemResult,
+    LevelFigures,
+    Metric,
+    ParticipantResult,
+    RoundResults,
+)
 
 NO_ESTIMATE = "no self-estimate given"  # self_estimate_note of a participant without one
 
@@ -38,6 +45,21 @@ def _metric(name: str, m: Metric, into: dict[str, Any]) -> None:
     into[f"{name}_note"] = m.note
 
 
+def _figures(f: LevelFigures) -> dict[str, Any]:
+    out: dict[str, Any] = {}
+    for name in ("accuracy", "false_positive_rate", "false_negative_rate", "type2_auroc"):
+        _metric(name, getattr(f, name), out)
+    return out
+
+
+def _breakdown(b: AttributeBreakdown) -> dict[str, Any]:
+    """The group's figures per level of one attribute (answers of the group pooled)."""
+    return {"attribute": b.attribute, "min_items": b.min_items, "withheld": list(b.withheld),
+            "levels": [{"name": level.name, "n_items": level.n_items,
+                        "merged": list(level.merged), **_figures(level.group)}
+                       for level in b.levels]}
+
+
 def participant_json(results: RoundResults, p: ParticipantResult) -> dict[str, Any]:
     """One participant's counts, metrics, levels, criteria outcomes and rating table."""
     out: dict[str, Any] = {"participant": p.code}
@@ -54,6 +76,12 @@ def participant_json(results: RoundResults, p: ParticipantResult) -> dict[str, A
                            "same_source": list(p.rating_signal)}
     if p.conclusions:  # graded conclusion scales: every level's answers by true class
         out["conclusions"] = [asdict(row) for row in p.conclusions]
+    if results.breakdowns:  # [attributes] breakdown: the participant's own figures per level
+        out["breakdowns"] = [
+            {"attribute": b.attribute,
+             "levels": [{"name": level.name, **_figures(level.participants[p.code])}
+                        for level in b.levels]}
+            for b in results.breakdowns]
     out["overall"] = p.overall
     if results.round.estimates is not None:  # the same keys for everyone in the round
         given = results.round.estimates.get(p.code)
@@ -103,6 +131,8 @@ def group_json(results: RoundResults) -> dict[str, Any]:
         "levels": [asdict(level) for level in group.levels],
         **({"conclusions": [asdict(row) for row in group.conclusions]}
            if group.conclusions else {}),
+        **({"breakdowns": [_breakdown(b) for b in results.breakdowns]}
+           if results.breakdowns else {}),
     }
 
 

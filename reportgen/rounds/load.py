@@ -88,6 +88,17 @@ def _items(table: Table, cfg: RoundConfig, log: ProblemLog) -> tuple[
     return items, truths, attributes
 
 
+def _breakdown_columns(cfg: RoundConfig, attributes: dict[str, tuple[str, ...]], file: str,
+                       log: ProblemLog) -> None:
+    """Every column named by ``[attributes] breakdown`` must be an extra column of the key."""
+    for name in cfg.attributes.breakdown:
+        if name not in attributes:
+            log.error(ROUND_FILE, f"[attributes] breakdown names a column that is not in the "
+                      f"items file {file}", value=name, column="attributes.breakdown",
+                      allowed=", ".join(sorted(attributes)) or "no extra column in the items "
+                      "file: add the column or leave the name out")
+
+
 def _identities(table: Table, cfg: RoundConfig, codes: set[str],
                 log: ProblemLog) -> dict[str, Identity] | None:
     """Names by code; ``None`` when the code column is missing (reported once, with how many
@@ -189,6 +200,8 @@ def load_round(folder: Path, known_metrics: frozenset[str],
     t_items = _read(folder, "items", cfg, log, required=True, limits=limits)
     key = _items(t_items, cfg, log) if t_items is not None else None
     items, truths, attributes = key or ([], [], {})
+    if key is not None and t_items is not None:
+        _breakdown_columns(cfg, attributes, t_items.file, log)
     forms = None
     if is_form_pattern(cfg.files.name("responses")):  # returned response forms
         forms = _forms(folder, cfg, items if key is not None else None, log, limits)

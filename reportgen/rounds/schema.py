@@ -20,6 +20,7 @@ from reportgen.metrics.stability import FEW_ERRORS_THRESHOLD
 from reportgen.rounds.schema_base import ABSTAIN, _fold, _no_control_characters, _Table
 from reportgen.rounds.schema_files import (
     TABLE_COLUMNS,
+    Attributes,
     Columns,
     Files,
     Limits,
@@ -40,9 +41,9 @@ from reportgen.rounds.schema_scales import (
 
 __all__ = [
     "ABSTAIN", "DEFAULT_BINS", "ERRORS_AT_STRENGTH", "MAX_LEVELS", "MAX_STRENGTH",
-    "STRONGEST_ERRORS", "TABLE_COLUMNS", "Authoriser", "Classes", "Columns", "Confidence",
-    "Criterion", "Files", "Grade", "Limits", "Provider", "RoundConfig", "RoundInfo", "Scoring",
-    "TableFile", "Wide",
+    "STRONGEST_ERRORS", "TABLE_COLUMNS", "Attributes", "Authoriser", "Classes", "Columns",
+    "Confidence", "Criterion", "Files", "Grade", "Limits", "Provider", "RoundConfig", "RoundInfo",
+    "Scoring", "TableFile", "Wide",
 ]
 
 
@@ -194,6 +195,7 @@ class RoundConfig(_Table):
     wide: Wide = Wide()
     criteria: tuple[Criterion, ...] = ()
     limits: Limits = Limits()
+    attributes: Attributes = Attributes()
 
     @field_validator("decisions", mode="before")
     @classmethod

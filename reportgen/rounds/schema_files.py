@@ -144,3 +144,25 @@ class Wide(_Table):
         if self.decision == self.confidence:
             raise ValueError("decision and confidence patterns must differ")
         return self
+
+
+class Attributes(_Table):
+    """[attributes]: extra columns of the items file to break the results down by (docs/
+    round-format.md). Each named column must be in the items file."""
+
+    breakdown: tuple[str, ...] = Field(
+        default=(),
+        description="Items-file columns (e.g. image quality, disguise, difficulty band) whose "
+        "levels get accuracy, error rates and insight of their own in the reports.",
+    )
+
+    @field_validator("breakdown")
+    @classmethod
+    def _distinct_names(cls, names: tuple[str, ...]) -> tuple[str, ...]:
+        for name in names:
+            _no_control_characters(name, "the column name")
+            if not name.strip():
+                raise ValueError("a column name is blank")
+        if len(set(names)) < len(names):
+            raise ValueError("a column is named twice")
+        return names

@@ -31,6 +31,7 @@ from reportgen.results.model import (
     RoundResults,
 )
 from reportgen.rounds.model import Round
+from reportgen.scoring.breakdown import breakdowns
 from reportgen.scoring.columns import Column, Tables, counts, masks, submission_counts, tables
 from reportgen.scoring.criteria import judge
 from reportgen.scoring.group_views import ability_groups, ideal_curve, self_estimate_view
@@ -249,4 +250,5 @@ def score_round(rnd: Round, settings: Settings) -> RoundResults:
         ideal_curve=ideal_curve(m.levels.size),
         conclusions=group_conclusions,
     )
-    return RoundResults(rnd, participants, item_results(rnd, m, columns["accuracy"].value), group)
+    return RoundResults(rnd, participants, item_results(rnd, m, columns["accuracy"].value), group,
+                        breakdowns(rnd, m, in_group, settings.report.min_group_size))

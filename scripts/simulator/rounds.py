@@ -95,12 +95,13 @@ def _build(meta: RoundMeta, ex: Examiners, names: npt.NDArray[np.str_],
                           participants=participants, estimates=estimates, latent=latent)
 
 
-def _meta(year: int, n_items: int, round_id: str | None = None) -> RoundMeta:
+def _meta(year: int, n_items: int, round_id: str | None = None,
+          breakdown: tuple[str, ...] = ()) -> RoundMeta:
     issued = _third_friday_of_may(year)
     return RoundMeta(round_id=round_id or f"FIC-{year}", year=year, n_items=n_items,
                      opened=_first_weekday(dt.date(year, 3, 1)),
                      closed=_first_weekday(dt.date(year, 4, 10)), issued=issued,
-                     scoring_seed=year)
+                     scoring_seed=year, breakdown=breakdown)
 
 
 def _first_weekday(day: dt.date) -> dt.date:
@@ -194,6 +195,10 @@ def _sample_pool(seed: int) -> tuple[Examiners, npt.NDArray[np.str_], npt.NDArra
     return ex, names, orgs, mask
 
 
+SAMPLE_BREAKDOWN = ("quality", "pose")
+"""[attributes] breakdown of the newest sample round: columns of its items file."""
+
+
 def sample_rounds(seed: int = SAMPLE_SEED) -> dict[int, SimulatedRound]:
     """The three invented sample rounds FIC-2024, FIC-2025 and FIC-2026, keyed by year."""
     ex, names, orgs, mask = _sample_pool(seed)
@@ -202,8 +207,10 @@ def sample_rounds(seed: int = SAMPLE_SEED) -> dict[int, SimulatedRound]:
         rng = np.random.default_rng((seed, year))
         idx = np.flatnonzero(mask[:, k]).astype(np.int64)
         items = draw_items(60, rng)
-        out[year] = _build(_meta(year, 60), ex.take(idx), names[idx], orgs[idx], items,
-                           SAMPLE_YEARS[0], rng)
+        # The newest round breaks its results down by image quality and pose.
+        breakdown = SAMPLE_BREAKDOWN if year == SAMPLE_YEARS[-1] else ()
+        out[year] = _build(_meta(year, 60, breakdown=breakdown), ex.take(idx), names[idx],
+                           orgs[idx], items, SAMPLE_YEARS[0], rng)
     return out
 
 

@@ -66,3 +66,4 @@ class RoundMeta:
     closed: dt.date
     issued: dt.date
     scoring_seed: int
+    breakdown: tuple[str, ...] = ()  # [attributes] breakdown: key columns to break results down by
