@@ -261,16 +261,23 @@ def _files(out: Path) -> Iterator[str]:
             yield path.relative_to(out).as_posix()
 
 
-def verify(out: Path) -> Verification:
-    """Recompute every output's SHA-256 against OUT/manifest.json."""
+def recorded_outputs(out: Path) -> dict[str, str]:
+    """The outputs OUT/manifest.json lists, path -> SHA-256; OutputError when there is no
+    readable manifest."""
     path = out / MANIFEST
     try:
         doc = json.loads(path.read_text(encoding="utf-8"))
-        recorded = {o["path"]: o["sha256"] for o in doc["outputs"]}
+        return {o["path"]: o["sha256"] for o in doc["outputs"]}
     except FileNotFoundError as exc:
         raise OutputError(f"{out} has no {MANIFEST}: it is not a reportgen output folder") from exc
-    except (ValueError, KeyError, TypeError) as exc:
+    except (OSError, ValueError, KeyError, TypeError) as exc:
         raise OutputError(f"{path} is not a readable reportgen manifest") from exc
+
+
+def verify(out: Path) -> Verification:
+    """Recompute every output's SHA-256 against OUT/manifest.json."""
+    path = out / MANIFEST
+    recorded = recorded_outputs(out)
     present = set(_files(out)) - {MANIFEST, MANIFEST_SIGNATURE}
     altered = tuple(sorted(n for n in recorded if n in present
                            and sha256_file(out / n) != recorded[n]))

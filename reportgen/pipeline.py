@@ -8,7 +8,6 @@ from __future__ import annotations
 
 import datetime as dt
 import itertools
-import json
 import shutil
 import tempfile
 from collections.abc import Callable, Iterable, Iterator, Mapping
@@ -19,13 +18,14 @@ from typing import TYPE_CHECKING
 
 from reportgen import archive as history
 from reportgen.archive.trend import build_trend
-from reportgen.errors import InputError, Problem
+from reportgen.errors import InputError, OutputError, Problem
 from reportgen.output import (
     MANIFEST,
     MANIFEST_SIGNATURE,
     ManifestInput,
     Staging,
     manifest,
+    recorded_outputs,
     sha256_bytes,
     sha256_file,
 )
@@ -372,9 +372,8 @@ def refuse_issued_archive(archive: Path) -> None:
     lists its SHA-256): recording into it afterwards would make `verify` report it altered."""
     folder = archive.resolve().parent
     try:
-        outputs = json.loads((folder / MANIFEST).read_text(encoding="utf-8")).get("outputs")
-        listed = {entry.get("path") for entry in outputs}
-    except (OSError, ValueError, AttributeError, TypeError):
+        listed = recorded_outputs(folder)
+    except OutputError:
         return  # no reportgen output folder around it
     if archive.name in listed:
         raise InputError.single(

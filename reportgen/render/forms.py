@@ -18,8 +18,10 @@ from openpyxl.styles import Font, Protection
 from openpyxl.worksheet.datavalidation import DataValidation
 from openpyxl.worksheet.worksheet import Worksheet
 
-from reportgen.render.workbook import _fixed_zip as fixed_zip  # the one way to date entries
-from reportgen.render.workbook import document_time
+from reportgen.render.workbook import (
+    document_time,
+    fixed_zip,  # the one way to date zip entries
+)
 from reportgen.rounds.forms import (
     CODE_CELL,
     ESTIMATE_CELL,

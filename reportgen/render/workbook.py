@@ -271,7 +271,7 @@ def _exact_numbers() -> Iterator[None]:
         cell_writer.safe_string = _OPENPYXL_SAFE_STRING
 
 
-def _fixed_zip(data: bytes, when: dt.datetime) -> bytes:
+def fixed_zip(data: bytes, when: dt.datetime) -> bytes:
     """Re-pack the workbook with every zip entry dated ``when``.
 
     openpyxl stamps the clock twice on save: as zip entry dates and as the ``dcterms:modified``
@@ -316,4 +316,4 @@ def results_workbook(results: RoundResults) -> bytes:
     buf = io.BytesIO()
     with _exact_numbers():
         wb.save(buf)
-    return _fixed_zip(buf.getvalue(), when)
+    return fixed_zip(buf.getvalue(), when)
