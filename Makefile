@@ -41,7 +41,6 @@ bench: $(STAMP)
 	$(BIN)/python benchmarks/bench_certificates.py
 	$(BIN)/python benchmarks/bench_scoring.py
 	$(BIN)/python benchmarks/bench_metad.py
-	$(BIN)/python benchmarks/bench_render.py
 
 clean:
 	rm -rf $(VENV) demo-output

@@ -4,73 +4,84 @@
 
 For each of ``--participants`` certificates of the newest sample round, in one process, CPU time:
 
-* **end to end**: certificate HTML (context, wording, the four charts: Altair spec, vl-convert,
-  opaque PNG) and its PDF by ``html_to_pdf``, as ``issue`` renders it;
-* **text-only floor**: WeasyPrint alone on the same HTML with every chart replaced by an empty
-  box of the chart's size (same layout, same pages), with the same shared fonts and CSS.
+* **end to end**: certificate HTML (context, wording, the four charts: the round's shared
+  backdrops, made on first use and counted where they are made, and each certificate's own
+  marks) and its PDF by ``html_to_pdf``, as ``issue`` renders it;
+* **text-only floor**: WeasyPrint alone (``html_to_pdf``: tagged PDF/A-3b, the same shared fonts
+  and CSS) on the same HTML with every chart replaced by an empty box of the chart's size (same
+  layout, same pages).
 
 Prints both totals, the ratio, and where the end-to-end time goes (charts / HTML / PDF). A
-benchmark, not a test; a warm-up certificate is rendered first (engine start-up is excluded).
+benchmark, not a test; a warm-up certificate is rendered first (engine start-up is excluded),
+then the backdrop caches are emptied, so the round's shared backdrops are made and timed within
+the end-to-end loop, spread over ``--participants`` certificates as ``issue`` spreads them over
+the round's.
 """
 
 from __future__ import annotations
 
 import argparse
+import datetime as dt
 import re
 import sys
 import time
 from collections.abc import Callable
 from pathlib import Path
+from typing import Any
 
 ROOT = Path(__file__).resolve().parents[1]
 sys.path.insert(0, str(ROOT))
 
-import weasyprint  # noqa: E402
-
 from reportgen.pipeline import newest_sample_round, score_folder  # noqa: E402
-from reportgen.render import charts  # noqa: E402
+from reportgen.render import certificate as certificate_module  # noqa: E402
 from reportgen.render.certificate import render_certificate  # noqa: E402
-from reportgen.render.pdf import _resources, html_to_pdf  # noqa: E402
+from reportgen.render.certificate_charts import forget_backdrops  # noqa: E402
+from reportgen.render.pdf import html_to_pdf  # noqa: E402
 from reportgen.settings import Settings  # noqa: E402
 
 IMG = re.compile(r'<img class="chart" src="[^"]+" alt="[^"]*" width="(\d+)" height="(\d+)"[^>]*>')
+SVG = re.compile(r'<svg class="chart"[^>]* width="([\d.]+)" height="([\d.]+)".*?</svg>', re.S)
 
 
 def text_only(html: str) -> str:
-    return IMG.sub(lambda m: f'<div style="width: {m[1]}px; height: {m[2]}px"></div>', html)
+    """The same HTML with every chart (image or layered SVG) an empty box of its size."""
+    def box(m: re.Match[str]) -> str:
+        return f'<div style="width: {m[1]}px; height: {m[2]}px"></div>'
+
+    return SVG.sub(box, IMG.sub(box, html))
 
 
-def floor_pdf(html: str) -> bytes:
-    res = _resources()
-    doc = weasyprint.HTML(string=html).render(font_config=res.font_config, stylesheets=[res.css])
-    return bytes(doc.write_pdf())
+def floor_pdf(html: str, issued: dt.date) -> bytes:
+    """WeasyPrint on ``html`` as ``issue`` writes it: tagged PDF/A-3b, shared fonts and CSS."""
+    return html_to_pdf(html, issued=issued)
 
 
 class ChartClock:
-    """CPU time spent inside ``charts.image`` (spec, vl-convert and PNG) while installed."""
+    """CPU time spent making a certificate's charts (shared backdrops and own marks) while
+    installed."""
 
     def __init__(self) -> None:
         self.seconds = 0.0
-        self.original: Callable[..., charts.Image] = charts.image
+        self.original: Callable[..., Any] = certificate_module.certificate_charts
 
     def __enter__(self) -> ChartClock:
-        def timed(chart: object) -> charts.Image:
+        def timed(*args: Any) -> Any:
             start = time.process_time()
             try:
-                return self.original(chart)
+                return self.original(*args)
             finally:
                 self.seconds += time.process_time() - start
 
-        charts.image = timed
+        certificate_module.certificate_charts = timed
         return self
 
     def __exit__(self, *exc: object) -> None:
-        charts.image = self.original
+        certificate_module.certificate_charts = self.original
 
 
 def main() -> None:
     ap = argparse.ArgumentParser(description=__doc__)
-    ap.add_argument("--participants", type=int, default=20)
+    ap.add_argument("--participants", type=int, default=40)
     ap.add_argument("--round", type=Path, default=None)
     args = ap.parse_args()
     folder = args.round or newest_sample_round()
@@ -78,16 +89,17 @@ def main() -> None:
     settings = Settings()
     issued = results.round.config.round.issued
     people = results.participants[: args.participants]
-    floor_pdf(text_only(render_certificate(results, people[0], settings)))  # warm-up
+    floor_pdf(text_only(render_certificate(results, people[0], settings)), issued)  # warm-up
     html_to_pdf(render_certificate(results, people[0], settings), issued=issued)
 
     plain = [text_only(render_certificate(results, p, settings)) for p in people]
     start = time.process_time()
     for html in plain:
-        floor_pdf(html)
+        floor_pdf(html, issued)
     floor = time.process_time() - start
 
     html_cpu = pdf_cpu = 0.0
+    forget_backdrops()  # the round's shared backdrops are made, and timed, in the loop below
     with ChartClock() as clock:
         for p in people:
             t0 = time.process_time()

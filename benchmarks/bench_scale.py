@@ -235,8 +235,9 @@ def main() -> None:
         if "issue" not in args.skip:
             print(f"\n## issue (everything written, --jobs {args.issue_jobs}, fresh process each)")
             walls, cpus = [], []
+            rss = {}
             for n in args.issue_sizes:
-                r = run_issue(folder(n), tmp / f"out-issue-{n}", args.issue_jobs)
+                r = rss[n] = run_issue(folder(n), tmp / f"out-issue-{n}", args.issue_jobs)
                 walls.append(r["wall"])
                 cpus.append(r["cpu"] + r["cpu_workers"])
                 print(f"{n:>6} participants: wall {r['wall']:7.1f} s, CPU {cpus[-1]:7.1f} s, "
@@ -245,6 +246,12 @@ def main() -> None:
             if len(args.issue_sizes) > 1:
                 print(f"scaling exponent k (issue, CPU): {exponent(args.issue_sizes, cpus):.3f}, "
                       f"(wall: {exponent(args.issue_sizes, walls):.3f}) (target <= 1.05)")
+                small, large = rss[min(args.issue_sizes)], rss[max(args.issue_sizes)]
+                print(f"peak RSS {max(args.issue_sizes)} / {min(args.issue_sizes)} participants "
+                      f"(--jobs {args.issue_jobs}): main "
+                      f"{large['rss_main'] / small['rss_main']:.2f}, worker "
+                      f"{large['rss_worker'] / max(small['rss_worker'], 1e-9):.2f} "
+                      "(target <= 1.5; the memory section measures it with --jobs 2)")
 
         if "memory" not in args.skip:
             print("\n## peak RSS of issue (--jobs 2: this process / its worker)")

@@ -12,17 +12,16 @@ from typing import Any
 import numpy as np
 
 from reportgen import catalogue
-from reportgen.render import chart_tables, charts, wording
+from reportgen.render import chart_tables, wording
+from reportgen.render.certificate_charts import certificate_charts
 from reportgen.render.context import (
     common_context,
     criterion_value,
-    insight_chart,
     insight_points,
     metric_values,
     render_template,
     report_id,
     rule_text,
-    value_of,
 )
 from reportgen.render.identity import Identity, Signed, identity_context
 from reportgen.render.pdf import PdfAttachment
@@ -176,26 +175,6 @@ def _summary_tiles(p: ParticipantResult) -> list[dict[str, str]]:
             for label, name in SUMMARY_TILES]
 
 
-def _certificate_charts(results: RoundResults, p: ParticipantResult, accuracies: list[float],
-                        ctx: dict[str, Any]) -> dict[str, charts.Image | None]:
-    """The three certificate charts; the group distribution is withheld in small groups."""
-    group = results.group.levels
-    method = results.round.config.scoring.interval
-    m = p.metrics
-    own = {"d_prime": m["d_prime"].value, "type2_auroc": m["type2_auroc"].value,
-           "low": m["type2_auroc"].low, "high": m["type2_auroc"].high,
-           "expected": value_of(m.get("expected_type2_auroc"))}
-    return {
-        "by_level": charts.image(charts.accuracy_by_confidence(
-            p.levels, group, accent=ctx["accent"], method=method, calibrated=ctx["calibrated"])),
-        "right_wrong": charts.image(charts.confidence_right_wrong(p.levels, group)),
-        "position": None if ctx["small_group"] else charts.image(charts.position_in_group(
-            accuracies, p.metrics["accuracy"].value, accent=ctx["accent"], width=255,
-            height=185)),
-        "insight": insight_chart(results, ctx, own=own, exclude=p.code),
-    }
-
-
 def _chart_tables(results: RoundResults, p: ParticipantResult, accuracies: list[float],
                   ctx: dict[str, Any]) -> dict[str, chart_tables.Table]:
     """The numbers behind each certificate chart (see :mod:`.chart_tables`)."""
@@ -242,7 +221,7 @@ def certificate_context(results: RoundResults, participant: ParticipantResult,
         "conclusions": scale_words.conclusion_table(participant.conclusions, cfg),
         "breakdowns": breakdown_words.own_tables(results.breakdowns, participant.code),
         "item_pairs": _two_columns(_item_rows(results, participant.row, settings)),
-        "charts": _certificate_charts(results, participant, accuracies, ctx),
+        "charts": certificate_charts(results, participant, ctx),
         "chart_tables": _chart_tables(results, participant, accuracies, ctx),
         "position_sentence": "" if ctx["small_group"] else _position_sentence(
             accuracies, participant.metrics["accuracy"].value),

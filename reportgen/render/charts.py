@@ -5,9 +5,11 @@ with vl-convert so labels are measured and drawn with the same glyphs the PDF us
 aggregated before charting (counts per level or bin): no chart carries a row per answer, and none
 carries a participant code.
 
-Embedding was measured (benchmarks/bench_render.py): opaque RGB PNG at scale 2 cost WeasyPrint no
-more than ``<img>`` SVG and less than vl-convert's RGBA PNG, keeps the HTML small, and prints at
-144 dpi. The functions building a chart return an Altair chart; :func:`image` exports it.
+Embedding was measured (issue 14, ENGINEERING notes): opaque RGB PNG at scale 2 cost WeasyPrint
+no more than ``<img>`` SVG and less than vl-convert's RGBA PNG, keeps the HTML small, and prints
+at 144 dpi. The functions building a chart return an Altair chart; :func:`image` exports it.
+The certificate's charts are built in :mod:`reportgen.render.certificate_charts` (a backdrop per
+round from these helpers, and each participant's marks over it).
 """
 
 from __future__ import annotations
@@ -187,79 +189,6 @@ def histogram(values: Sequence[float], lo: float, hi: float, bins: int) -> list[
 
 
 # ---------------------------------------------------------------------------------------------
-# Certificate charts
-
-
-def accuracy_by_confidence(own: Sequence[LevelRow], group: Sequence[LevelRow], *, accent: str,
-                           method: Method, calibrated: bool) -> alt.TopLevelMixin:
-    """Proportion correct at each confidence level, with 95 % intervals, beside the group's."""
-    rows = level_rows(own, YOU, method) + level_rows(group, GROUP, method)
-    colour = alt.Color("who:N", scale=alt.Scale(domain=[YOU, GROUP], range=[accent, LIGHT]),
-                       legend=alt.Legend(title=None))
-    shape = alt.Shape("who:N", scale=alt.Scale(domain=[YOU, GROUP], range=["circle", "square"]),
-                      legend=alt.Legend(title=None))
-    x = alt.X("level:O", title="Confidence level", axis=alt.Axis(labelAngle=0),
-              scale=alt.Scale(domain=[f"{lv.level:g}" for lv in group]))
-    y = alt.Y("share:Q", title="Proportion correct", scale=alt.Scale(domain=[0, 1]),
-              axis=alt.Axis(format=".0%", tickCount=5))
-    base = alt.Chart(_data(rows)).encode(x=x, xOffset=alt.XOffset("who:N", sort=[YOU, GROUP]),
-                                         color=colour)
-    layers: list[alt.Chart] = [
-        base.mark_rule(strokeWidth=1.5).encode(y=y, y2="high:Q"),
-        base.mark_rule(strokeWidth=1.5).encode(y=alt.Y("low:Q"), y2="share:Q"),
-        base.mark_point(filled=True, size=45, opacity=1).encode(y=y, shape=shape),
-    ]
-    if calibrated:
-        stated = [r for r in rows if r["who"] == GROUP and r["stated"] is not None]
-        layers.insert(0, alt.Chart(_data(stated)).mark_tick(
-            color=DARK, strokeDash=[3, 2], thickness=1, size=34).encode(
-            x=x, y=alt.Y("stated:Q")))
-    return alt.layer(*layers).properties(width=240, height=150)
-
-
-def confidence_right_wrong(own: Sequence[LevelRow], group: Sequence[LevelRow]
-                           ) -> alt.TopLevelMixin:
-    """How often each confidence level was used when right and when wrong, you beside the group."""
-    rows = confidence_shares(own, YOU) + confidence_shares(group, GROUP)
-    chart: alt.TopLevelMixin = alt.Chart(_data(rows)).mark_bar(width={"band": 0.9}).encode(
-        x=alt.X("level:O", title="Confidence level", axis=alt.Axis(labelAngle=0),
-                scale=alt.Scale(domain=[f"{lv.level:g}" for lv in group])),
-        xOffset=alt.XOffset("kind:N", sort=["right", "wrong"]),
-        y=alt.Y("share:Q", title="Share of answers", axis=alt.Axis(format=".0%", tickCount=4)),
-        color=alt.Color("kind:N", scale=alt.Scale(domain=["right", "wrong"],
-                                                  range=[RIGHT_COLOUR, WRONG_COLOUR]),
-                        legend=alt.Legend(title=None, labelExpr="'when ' + datum.label")),
-        column=alt.Column("who:N", sort=[YOU, GROUP], title=None,
-                          header=alt.Header(labelFontSize=10, labelColor=DARK)),
-    ).properties(width=105, height=150)
-    return chart
-
-
-def position_in_group(values: Sequence[float], own: float | None, *, accent: str,
-                      width: int = 590, height: int = 110) -> alt.TopLevelMixin:
-    """The group's accuracy distribution (counts in 5-point bins) with a rule at yours."""
-    bars = alt.Chart(_data(histogram(values, 0.0, 1.0, 20))).mark_bar(
-        color=GREY, binSpacing=1).encode(
-        x=alt.X("start:Q", bin="binned", title="Accuracy",
-                scale=alt.Scale(domain=[0, 1]),
-                axis=alt.Axis(format=".0%", tickCount=10 if width >= 400 else 5)),
-        x2="end:Q",
-        y=alt.Y("count:Q", title="Participants", axis=alt.Axis(tickMinStep=1)),
-    )
-    if own is None:
-        alone: alt.TopLevelMixin = bars.properties(width=width, height=height)
-        return alone
-    marker = _data([{"x": own, "label": YOU}])
-    rule = alt.Chart(marker).mark_rule(color=accent, strokeWidth=2.5).encode(x="x:Q")
-    right_edge = own > 0.9
-    text = alt.Chart(marker).mark_text(color=accent, align="right" if right_edge else "left",
-                                       dx=-4 if right_edge else 4, dy=-4, baseline="top",
-                                       fontWeight="bold", fontSize=11).encode(
-        x="x:Q", y=alt.value(0), text="label:N")
-    return alt.layer(bars, rule, text).properties(width=width, height=height)
-
-
-# ---------------------------------------------------------------------------------------------
 # Appendix charts
 
 
@@ -331,8 +260,8 @@ def _padded_domain(values: Sequence[float], lo: float, hi: float, step: float
     finite = [v for v in values if np.isfinite(v)]
     if not finite:
         return lo, hi
-    low = max(lo, float(np.floor(min(finite) / step + 1e-9) * step))
-    high = min(hi, float(np.ceil(max(finite) / step - 1e-9) * step))
+    low = max(lo, round(float(np.floor(min(finite) / step + 1e-9) * step), 9))
+    high = min(hi, round(float(np.ceil(max(finite) / step - 1e-9) * step), 9))
     return (low, high) if high > low else (lo, hi)
 
 
@@ -406,37 +335,49 @@ def insight_by_ability(rows: Sequence[Mapping[str, Any]], *, scale: tuple[float,
     return chart
 
 
+def insight_domains(points: Sequence[Mapping[str, Any]], curve: Sequence[Mapping[str, float]],
+                    extra: Sequence[tuple[float, float]] = ()
+                    ) -> tuple[tuple[float, float], tuple[float, float]]:
+    """The d′ and type-2 area axes holding ``points``, ``curve``, the (d′, area) pairs ``extra``
+    and chance (0, 0.5), padded to steps of 0.5 and 0.1."""
+    xs = [p["d_prime"] for p in points] + [c["d_prime"] for c in curve] + [0.0]
+    ys = [p["type2_auroc"] for p in points] + [c["type2_auroc"] for c in curve] + [0.5]
+    xs += [d for d, _ in extra]
+    ys += [a for _, a in extra]
+    return _padded_domain(xs, -2.0, 6.0, 0.5), _padded_domain(ys, 0.0, 1.0, 0.1)
+
+
+def insight_axes(x_domain: tuple[float, float], y_domain: tuple[float, float]
+                 ) -> tuple[alt.X, alt.Y]:
+    """The d′ and type-2 area channels of :func:`insight_against_dprime` on fixed axes."""
+    x = alt.X("d_prime:Q", title="Discriminability d\u2032",
+              scale=alt.Scale(domain=list(x_domain), nice=False),
+              axis=alt.Axis(values=_ticks(*x_domain), format=".1f"))
+    y = alt.Y("type2_auroc:Q", title="Type-2 ROC area",
+              scale=alt.Scale(domain=list(y_domain), nice=False), axis=alt.Axis(tickCount=6))
+    return x, y
+
+
 def insight_against_dprime(points: Sequence[Mapping[str, Any]],
-                           curve: Sequence[Mapping[str, float]], *, accent: str,
-                           few_errors: int, own: Mapping[str, float | None] | None = None
-                           ) -> alt.TopLevelMixin:
+                           curve: Sequence[Mapping[str, float]], *, few_errors: int,
+                           domains: tuple[tuple[float, float], tuple[float, float]] | None = None,
+                           light: bool = False) -> alt.TopLevelMixin:
     """Each participant's type-2 ROC area against d′ (anonymous grey points; open when resting on
-    fewer than ``few_errors`` errors) with the ideal-observer curve, and optionally one
-    participant highlighted.
+    fewer than ``few_errors`` errors) with the ideal-observer curve. ``light`` greys the points
+    lighter, for a certificate that highlights one point over them
+    (:mod:`reportgen.render.certificate_charts`); ``domains`` fixes the axes
+    (default :func:`insight_domains` of what is drawn).
 
     ``points``: ``d_prime``, ``type2_auroc`` and ``few`` (bool) and nothing else: no code, no
-    name. ``curve``: ``d_prime``, ``type2_auroc``. ``own``: ``d_prime``, ``type2_auroc``,
-    ``low``, ``high`` (its interval) and ``expected`` (the ideal observer's value for that
-    participant), any of which may be None.
+    name. ``curve``: ``d_prime``, ``type2_auroc``.
     """
     enough, few = f"{few_errors} or more errors", f"fewer than {few_errors} errors: unstable"
     rows = [{"d_prime": p["d_prime"], "type2_auroc": p["type2_auroc"],
              "errors": few if p["few"] else enough} for p in points]
-    xs = [p["d_prime"] for p in rows] + [c["d_prime"] for c in curve] + [0.0]
-    ys = [p["type2_auroc"] for p in rows] + [c["type2_auroc"] for c in curve] + [0.5]
-    own_values = {k: v for k, v in (own or {}).items() if v is not None}
-    if not {"d_prime", "type2_auroc"} <= set(own_values):
-        own_values = {}  # no point to draw
-    xs += [v for k, v in own_values.items() if k == "d_prime"]
-    ys += [v for k, v in own_values.items() if k != "d_prime"]
-    x_domain = _padded_domain(xs, -2.0, 6.0, 0.5)
-    x = alt.X("d_prime:Q", title="Discriminability d\u2032",
-              scale=alt.Scale(domain=list(x_domain), nice=False),
-              axis=alt.Axis(values=_ticks(*x_domain), format=".1f"))
-    y_scale = alt.Scale(domain=list(_padded_domain(ys, 0.0, 1.0, 0.1)), nice=False)
-    y = alt.Y("type2_auroc:Q", title="Type-2 ROC area", scale=y_scale,
-              axis=alt.Axis(tickCount=6))
-    point_colour = LIGHT if own_values else GREY
+    x_domain, y_domain = domains or insight_domains(points, curve)
+    x, y = insight_axes(x_domain, y_domain)
+    y_scale = alt.Scale(domain=list(y_domain), nice=False)
+    point_colour = LIGHT if light else GREY
     layers: list[alt.Chart] = [
         alt.Chart(_data([{"chance": 0.5}])).mark_rule(
             color=LIGHT, strokeDash=[2, 2], strokeWidth=1).encode(
@@ -456,8 +397,6 @@ def insight_against_dprime(points: Sequence[Mapping[str, Any]],
         end = max(curve, key=lambda c: c["d_prime"])
         layers.append(alt.Chart(_data([{**end, "label": "ideal observer"}])).mark_text(
             color=DARK, align="right", dy=-9, fontSize=9).encode(x=x, y=y, text="label:N"))
-    if own_values:
-        layers += _own_marks(own_values, x, y, accent)
     chart: alt.TopLevelMixin = alt.layer(*layers).properties(width=290, height=180)
     return chart
 
@@ -467,23 +406,3 @@ def _ticks(lo: float, hi: float) -> list[float]:
     step = 0.5 if hi - lo <= 4.0 else 1.0
     first = float(np.ceil(lo / step - 1e-9))
     return [(first + i) * step for i in range(int((hi - first * step) / step + 1e-9) + 1)]
-
-
-def _own_marks(own: Mapping[str, float], x: alt.X, y: alt.Y, accent: str) -> list[alt.Chart]:
-    """The highlighted participant: 95 % interval, the ideal observer's value for them (a dark
-    tick) and their point, labelled."""
-    row = _data([{**own, "label": YOU}])
-    marks: list[alt.Chart] = []
-    if "low" in own and "high" in own:
-        marks.append(alt.Chart(row).mark_rule(color=accent, strokeWidth=1.5).encode(
-            x=x, y=alt.Y("low:Q"), y2="high:Q"))
-    if "expected" in own:
-        marks.append(alt.Chart(row).mark_tick(color=DARK, orient="horizontal", thickness=2,
-                                              size=16).encode(x=x, y=alt.Y("expected:Q")))
-    marks.append(alt.Chart(row).mark_point(filled=True, color=accent, size=70, opacity=1,
-                                           stroke="white", strokeWidth=0.8).encode(x=x, y=y))
-    # Right of the point: the interval and the tick run vertically through it.
-    marks.append(alt.Chart(row).mark_text(color=accent, align="left", dx=7, fontWeight="bold",
-                                          fontSize=11, baseline="middle").encode(
-        x=x, y=y, text="label:N"))
-    return marks

@@ -176,18 +176,16 @@ def insight_points(results: RoundResults, exclude: str | None = None) -> list[di
     return sorted(points, key=lambda r: (r["d_prime"], r["type2_auroc"], r["few"]))
 
 
-def insight_chart(results: RoundResults, ctx: Mapping[str, Any], *,
-                   own: Mapping[str, float | None] | None = None,
-                   exclude: str | None = None) -> charts.Image | None:
-    """Type-2 area against d′ with the ideal curve; the group's points are withheld in small
-    groups (each point is one participant)."""
-    points = [] if ctx["small_group"] else insight_points(results, exclude)
+def insight_chart(results: RoundResults, ctx: Mapping[str, Any]) -> charts.Image | None:
+    """The group's type-2 area against d′ with the ideal curve (the appendix's view); the
+    points are withheld in small groups (each point is one participant)."""
+    points = [] if ctx["small_group"] else insight_points(results)
     curve = [{"d_prime": c.d_prime, "type2_auroc": c.type2_auroc}
              for c in results.group.ideal_curve]
-    if not points and not curve and not (own and own.get("type2_auroc") is not None):
+    if not points and not curve:
         return None
-    return charts.image(charts.insight_against_dprime(
-        points, curve, accent=ctx["accent"], few_errors=ctx["few_errors"], own=own))
+    return charts.image(charts.insight_against_dprime(points, curve,
+                                                      few_errors=ctx["few_errors"]))
 
 
 def metric_values(results: RoundResults, name: str) -> list[float]:

@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import json
 
-from reportgen.render import charts
+from reportgen.render import certificate_charts, charts
 from reportgen.results.model import LevelRow, RoundResults
 
 
@@ -29,14 +29,12 @@ def test_histogram_counts_every_value_once() -> None:
 
 
 def test_certificate_charts_carry_no_identity(results: RoundResults) -> None:
-    p = results.participants[0]
     accuracies = [q.metrics["accuracy"].value or 0.0 for q in results.participants]
+    group = results.group.levels
     specs = [
-        charts._spec(charts.accuracy_by_confidence(p.levels, results.group.levels,
-                                                   accent="#5f6b73", method="wilson",
-                                                   calibrated=True)),
-        charts._spec(charts.confidence_right_wrong(p.levels, results.group.levels)),
-        charts._spec(charts.position_in_group(accuracies, accuracies[0], accent="#5f6b73")),
+        charts._spec(certificate_charts.by_level_chart(group, "#5f6b73", "wilson", True)),
+        charts._spec(certificate_charts.right_wrong_chart(group, 0.5)),
+        charts._spec(certificate_charts.position_chart(accuracies, 255, 185)),
     ]
     blob = json.dumps(specs)
     for q in results.participants:
@@ -45,8 +43,7 @@ def test_certificate_charts_carry_no_identity(results: RoundResults) -> None:
 
 
 def test_png_export_is_sharp_and_deterministic() -> None:
-    chart = charts.accuracy_by_confidence(_levels(), _levels(), accent="#5f6b73",
-                                          method="wilson", calibrated=True)
+    chart = charts.group_calibration(_levels(), accent="#5f6b73", method="wilson")
     image = charts.image(chart)
     again = charts.image(chart)
     assert image == again
@@ -55,24 +52,28 @@ def test_png_export_is_sharp_and_deterministic() -> None:
     assert (width, height) == (2 * image.width, 2 * image.height)  # scale 2
 
 
-def _insight_spec(own: dict[str, float | None] | None) -> str:
+def _insight_spec(light: bool) -> str:
     points = [{"d_prime": 1.0 + k / 10, "type2_auroc": 0.6 + k / 50, "few": k % 2 == 0}
               for k in range(10)]
     curve = [{"d_prime": d, "type2_auroc": 0.5 + d / 10} for d in (0.5, 1.0, 2.0, 4.0)]
     return json.dumps(charts._spec(charts.insight_against_dprime(
-        points, curve, accent="#123456", few_errors=11, own=own)))
+        points, curve, few_errors=11, light=light)))
 
 
-def test_insight_scatter_highlights_only_a_drawable_own_point() -> None:
-    with_point = _insight_spec({"d_prime": 1.5, "type2_auroc": 0.7, "low": 0.55, "high": 0.85,
-                                "expected": 0.75})
-    assert f'"{charts.YOU}"' in with_point
-    assert "fewer than 11 errors: unstable" in with_point  # the few-errors flag has a legend
-    assert "ideal observer" in with_point
-    no_point = _insight_spec({"d_prime": 4.9, "type2_auroc": None, "low": None, "high": None,
-                              "expected": 0.9})
-    assert f'"{charts.YOU}"' not in no_point
-    assert "4.9" not in no_point  # an undrawn point does not stretch the axis either
+def test_insight_scatter_flags_few_errors_and_names_the_curve() -> None:
+    spec = _insight_spec(light=False)
+    assert "fewer than 11 errors: unstable" in spec  # the few-errors flag has a legend
+    assert "ideal observer" in spec
+    assert charts.GREY in spec and charts.LIGHT in _insight_spec(light=True)
+    assert f'"{charts.YOU}"' not in spec  # a participant's own point is drawn over it
+
+
+def test_insight_axes_hold_every_value_they_are_given() -> None:
+    points = [{"d_prime": 1.2, "type2_auroc": 0.66}]
+    curve = [{"d_prime": 0.5, "type2_auroc": 0.6}, {"d_prime": 3.0, "type2_auroc": 0.88}]
+    assert charts.insight_domains(points, curve) == ((0.0, 3.0), (0.5, 0.9))
+    x, y = charts.insight_domains(points, curve, [(4.9, 0.31)])
+    assert x == (0.0, 5.0) and y == (0.3, 0.9)
 
 
 def test_axis_ticks_do_not_crowd() -> None:

@@ -5,7 +5,7 @@ from __future__ import annotations
 
 import json
 
-from reportgen.render import charts, wording
+from reportgen.render import certificate_charts, charts, wording
 from reportgen.render.appendix import appendix_context, render_appendix
 from reportgen.render.certificate import certificate_context, render_certificate
 from reportgen.render.context import insight_points
@@ -75,14 +75,15 @@ def test_insight_points_and_chart_spec_carry_no_identity(results: RoundResults) 
     assert points and all(set(p) == {"d_prime", "type2_auroc", "few"} for p in points)
     assert points == sorted(points, key=lambda r: (r["d_prime"], r["type2_auroc"], r["few"]))
     me = results.participants[3]
-    curve = [{"d_prime": c.d_prime, "type2_auroc": c.type2_auroc}
-             for c in results.group.ideal_curve]
-    m = me.metrics
-    spec = charts._spec(charts.insight_against_dprime(
-        insight_points(results, exclude=me.code), curve, accent="#123456", few_errors=5,
-        own={"d_prime": m["d_prime"].value, "type2_auroc": m["type2_auroc"].value,
-             "low": m["type2_auroc"].low, "high": m["type2_auroc"].high,
-             "expected": m["expected_type2_auroc"].value}))
+    curve = [(c.d_prime, c.type2_auroc) for c in results.group.ideal_curve]
+    shown = certificate_charts._insight_points(results, small_group=False)
+    assert len(shown) == len(points)  # yours too: your highlighted point is drawn over it
+    assert certificate_charts._insight_points(results, small_group=True) == ()
+    x_domain, y_domain = charts.insight_domains(points, [
+        {"d_prime": d, "type2_auroc": a} for d, a in curve])
+    spec = charts._spec(certificate_charts.insight_chart(shown, curve, 5, x_domain, y_domain,
+                                                         highlighted=True))
+    assert me.code not in json.dumps(spec)
     blob = json.dumps(spec)
     rnd = results.round
     for p in results.participants:
@@ -95,13 +96,6 @@ def test_insight_points_and_chart_spec_carry_no_identity(results: RoundResults) 
         [{"quarter": "1", "score": 0.5, "estimate": 0.6, "fitted": 0.58, "null_low": 0.6,
           "null_high": 0.7}]))
     assert quartiles["config"]["font"] == charts.FONT_FAMILY
-
-
-def test_certificate_leaves_its_participant_out_of_the_grey_points(
-        results: RoundResults) -> None:
-    me = next(p for p in results.participants if p.metrics["type2_auroc"].estimable)
-    others = insight_points(results, exclude=me.code)
-    assert len(others) == len(insight_points(results)) - 1
 
 
 def test_certificate_shows_meta_d_with_interval_and_flag(results: RoundResults,

@@ -183,7 +183,7 @@ def test_html_is_built_for_phones_screen_readers_and_print(certificate_html: str
 
 
 def test_every_chart_has_its_numbers_beside_it(certificate_html: str) -> None:
-    charts_shown = certificate_html.count('<img class="chart"')
+    charts_shown = len(re.findall(r'<img class="chart"|<svg class="chart"', certificate_html))
     assert charts_shown >= 3
     assert certificate_html.count('<details class="chart-data">') == charts_shown
 
