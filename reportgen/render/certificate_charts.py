@@ -8,12 +8,13 @@ own marks (:mod:`reportgen.render.layered`).
 * **position**: the group's accuracy histogram (backdrop) and a line at yours;
 * **insight**: every participant's type-2 ROC area against d′ as an anonymous grey point, with
   the ideal-observer curve (backdrop), and yours highlighted with its interval and the ideal
-  observer's value for you. The axes cover every participant's point, interval and expected
-  value, so every certificate of a round shows the same picture around a different point.
+  observer's value for you (marks).
 
 Backdrops are made once per round and process (:func:`functools.lru_cache` on hashable
-inputs); nothing about a participant enters one, except in groups too small to show the others,
-where the insight axes fit the participant's own values.
+inputs). A participant shapes one only through an axis's extent: the right/wrong panels' top
+(rounded up to 10 points) and the insight axes (stretched to hold your interval and expected
+value, in steps of 0.5 and 0.1), so a handful of backdrops serve a whole round and no backdrop
+carries anything of a participant but where its axes end.
 """
 
 from __future__ import annotations
@@ -245,7 +246,7 @@ def insight_chart(points: Sequence[InsightPoint], curve: Sequence[tuple[float, f
 def insight_marks(frame: InsightBackdrop, own: Mapping[str, float | None], accent: str
                   ) -> Layered:
     """Your point (labelled), its 95 % interval and the ideal observer's value for you (a dark
-    tick): the marks :func:`charts.insight_against_dprime` drew for one participant before."""
+    tick)."""
     back = frame.back
     d, area = own.get("d_prime"), own.get("type2_auroc")
     if d is None or area is None:
@@ -308,12 +309,12 @@ def certificate_charts(results: RoundResults, p: ParticipantResult, ctx: Mapping
     drawn = own["d_prime"] is not None and own["type2_auroc"] is not None
     insight = None
     if points or curve or drawn:
-        d = own["d_prime"]
-        extra = [(d, v) for k in ("type2_auroc", "low", "high", "expected")
-                 if drawn and d is not None and (v := own[k]) is not None]
+        own_d = own["d_prime"]
+        extra = [(own_d, v) for k in ("type2_auroc", "low", "high", "expected")
+                 if drawn and own_d is not None and (v := own[k]) is not None]
         x_domain, y_domain = charts.insight_domains(
-            [{"d_prime": d, "type2_auroc": a} for d, a, _ in points],
-            [{"d_prime": d, "type2_auroc": a} for d, a in curve], extra)
+            [{"d_prime": pd, "type2_auroc": pa} for pd, pa, _ in points],
+            [{"d_prime": cd, "type2_auroc": ca} for cd, ca in curve], extra)
         frame = insight_backdrop(points, curve, int(ctx["few_errors"]), x_domain, y_domain,
                                  drawn)
         insight = insight_marks(frame, own, accent)
