@@ -17,6 +17,7 @@ move nothing.
 from __future__ import annotations
 
 import math
+import re
 from collections.abc import Iterator, Mapping, Sequence
 from dataclasses import dataclass
 from typing import Any
@@ -154,6 +155,17 @@ class Linear:
 # spreadsheet reaches the markup.
 
 
+_COLOUR = re.compile(r"#[0-9a-fA-F]{6}|white")
+
+
+def _c(colour: str) -> str:
+    """A colour for an SVG attribute: a hex triplet (round.toml's accent is checked as one when
+    the round is read) or white; anything else stops the build rather than reach the markup."""
+    if not _COLOUR.fullmatch(colour):
+        raise BuildError(f"chart colour {colour[:20]!r} is not a colour like #5f6b73")
+    return colour
+
+
 def _n(v: float) -> str:
     if not math.isfinite(v):
         raise BuildError("a chart mark has no finite position")
@@ -161,21 +173,22 @@ def _n(v: float) -> str:
 
 
 def line(x1: float, y1: float, x2: float, y2: float, colour: str, width: float) -> str:
-    return (f'<line x1="{_n(x1)}" y1="{_n(y1)}" x2="{_n(x2)}" y2="{_n(y2)}" stroke="{colour}" '
+    return (f'<line x1="{_n(x1)}" y1="{_n(y1)}" x2="{_n(x2)}" y2="{_n(y2)}" '
+            f'stroke="{_c(colour)}" '
             f'stroke-width="{_n(width)}"/>')
 
 
 def circle(cx: float, cy: float, area: float, fill: str, *, stroke: str | None = None,
            stroke_width: float = 0.0) -> str:
     """A filled circle of ``area`` square pixels (Vega-Lite's point ``size``)."""
-    edge = f' stroke="{stroke}" stroke-width="{_n(stroke_width)}"' if stroke else ""
+    edge = f' stroke="{_c(stroke)}" stroke-width="{_n(stroke_width)}"' if stroke else ""
     return (f'<circle cx="{_n(cx)}" cy="{_n(cy)}" r="{_n(math.sqrt(area / math.pi))}" '
-            f'fill="{fill}"{edge}/>')
+            f'fill="{_c(fill)}"{edge}/>')
 
 
 def rect(x: float, y: float, width: float, height: float, fill: str) -> str:
     return (f'<rect x="{_n(x)}" y="{_n(y)}" width="{_n(width)}" height="{_n(max(height, 0.0))}" '
-            f'fill="{fill}"/>')
+            f'fill="{_c(fill)}"/>')
 
 
 # Vega places text by its baseline: "top" sits 0.79 font sizes above the alphabetic baseline,
@@ -190,5 +203,5 @@ def text(x: float, y: float, words: str, colour: str, *, size: float, anchor: st
     weight = ' font-weight="bold"' if bold else ""
     safe = str(Markup.escape(words))
     return (f'<text x="{_n(x)}" y="{_n(y + _BASELINE_SHIFT[baseline] * size)}" '
-            f'font-family=\'{FONT}\' font-size="{_n(size)}"{weight} fill="{colour}" '
+            f'font-family=\'{FONT}\' font-size="{_n(size)}"{weight} fill="{_c(colour)}" '
             f'text-anchor="{anchor}">{safe}</text>')

@@ -154,5 +154,8 @@ def test_probe_lookups_and_maps_fail_loudly() -> None:
         layered.line(float("nan"), 0, 1, 1, ACCENT, 1)
 
 
-def test_svg_text_is_escaped() -> None:
+def test_svg_text_is_escaped_and_colours_checked() -> None:
     assert "&lt;b&gt;" in layered.text(1, 2, "<b>", ACCENT, size=11)
+    for bad in ('#fff" onload="x', "red", "#12345"):
+        with pytest.raises(BuildError, match="not a colour"):
+            layered.rect(0, 0, 1, 1, bad)
