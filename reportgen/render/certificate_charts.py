@@ -30,6 +30,7 @@ import altair as alt
 from reportgen.metrics.proportions import Method
 from reportgen.render import charts
 from reportgen.render.charts import DARK, GROUP, LIGHT, RIGHT_COLOUR, WRONG_COLOUR, YOU
+from reportgen.render.context import insight_points, metric_values
 from reportgen.render.layered import (
     Backdrop,
     Layered,
@@ -272,17 +273,10 @@ def insight_marks(frame: InsightBackdrop, own: Mapping[str, float | None], accen
 
 def _insight_points(results: RoundResults, small_group: bool) -> tuple[InsightPoint, ...]:
     """Every participant's (d′, type-2 area, few errors) point, yours too (your highlighted
-    point covers it), sorted by value so that their order says nothing about codes; none in a
-    small group."""
+    point covers it), in :func:`insight_points`' order; none in a small group."""
     if small_group:
         return ()
-    points = []
-    for q in results.participants:
-        d, a = q.metrics.get("d_prime"), q.metrics.get("type2_auroc")
-        if d is None or a is None or d.value is None or a.value is None:
-            continue
-        points.append((d.value, a.value, a.note is not None))
-    return tuple(sorted(points))
+    return tuple((r["d_prime"], r["type2_auroc"], r["few"]) for r in insight_points(results))
 
 
 def _own_insight(p: ParticipantResult) -> dict[str, float | None]:
@@ -301,8 +295,7 @@ def certificate_charts(results: RoundResults, p: ParticipantResult, ctx: Mapping
     method = results.round.config.scoring.interval
     accent, small = str(ctx["accent"]), bool(ctx["small_group"])
     top = right_wrong_top(group, p.levels)
-    accuracies = tuple(sorted(float(v) for q in results.participants
-                              if (v := q.metrics["accuracy"].value) is not None))
+    accuracies = tuple(sorted(metric_values(results, "accuracy")))
     points = _insight_points(results, small)
     curve = tuple((c.d_prime, c.type2_auroc) for c in results.group.ideal_curve)
     own = _own_insight(p)
